@@ -1,0 +1,5 @@
+"""bayesirl: how much do your demonstrations really determine a reward?"""
+
+from __future__ import annotations
+
+__version__ = "0.1.0"
