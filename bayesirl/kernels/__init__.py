@@ -1,0 +1,30 @@
+"""Numba kernels on plain float64/int64 arrays, each with a plain-numpy reference.
+
+Nothing here imports from the rest of the package. Transitions are a CSR matrix of shape
+``(S*A, S)`` whose row ``s*A + a`` is ``P(.|s, a)``, passed as ``(indptr, indices, data)``.
+"""
+
+from bayesirl.kernels.csr import (
+    csr_matvec,
+    csr_matvec_ref,
+    csr_rmatvec,
+    csr_rmatvec_ref,
+    scale_rows,
+    scale_rows_ref,
+    select_rows,
+    select_rows_ref,
+)
+from bayesirl.kernels.trajectories import sample_episodes, sample_episodes_ref
+
+__all__ = [
+    "csr_matvec",
+    "csr_matvec_ref",
+    "csr_rmatvec",
+    "csr_rmatvec_ref",
+    "scale_rows",
+    "scale_rows_ref",
+    "select_rows",
+    "select_rows_ref",
+    "sample_episodes",
+    "sample_episodes_ref",
+]

@@ -1,0 +1,88 @@
+"""Log-likelihood of demonstrations under a Boltzmann-rational demonstrator, with gradients.
+
+``q="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model. ``q="optimal"``:
+actions ~ exp(beta Q*) with Q* of the hard-optimal policy (the classic Bayesian-IRL model).
+The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likelihood").
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.likelihood import optimal, soft
+from bayesirl.likelihood.counts import demo_counts
+
+
+class LikelihoodValue(NamedTuple):
+    """Log-likelihood and its gradients in the weights and in ``log(beta)``."""
+
+    loglik: float
+    grad_weights: np.ndarray  # (F,)
+    grad_log_rationality: float
+
+
+class BoltzmannLikelihood:
+    """``L(w, beta) = sum_t log pi(a_t | s_t)`` for a Boltzmann-rational demonstrator.
+
+    Parameters
+    ----------
+    mdp : TabularMDP
+    demos : Demonstrations
+        Checked against ``mdp`` (ranges, horizon, every recorded transition).
+    rationality : float
+        Default inverse temperature ``beta`` (a sampler may pass another per call).
+    q : {"soft", "optimal"}
+
+    Notes
+    -----
+    The object keeps the last value vector, greedy policy and adjoint vector and warm-starts
+    the next call from them; that makes it stateful, so give each chain its own copy.
+    The policy depends on ``beta * w`` only, hence ``dL/dlog(beta) = w . dL/dw`` exactly.
+    """
+
+    def __init__(self, mdp, demos, rationality: float = 1.0, q: str = "soft") -> None:
+        if q not in ("soft", "optimal"):
+            raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
+        demos.check(mdp)
+        self.mdp, self.demos, self.q = mdp, demos, q
+        self.rationality = _positive(rationality)
+        self.counts = demo_counts(mdp, demos)
+        self._model = soft if q == "soft" else optimal
+        self._cache = self._model.new_cache(mdp, self.counts)
+        self.n_evaluations = 0
+
+    @property
+    def n_features(self) -> int:
+        """Number of reward weights."""
+        return self.mdp.n_features
+
+    def reset(self) -> None:
+        """Forget the warm starts (the next call solves from scratch)."""
+        self._cache = self._model.new_cache(self.mdp, self.counts)
+
+    def evaluate(self, weights, rationality: float | None = None) -> LikelihoodValue:
+        """Log-likelihood with gradients in ``weights`` and ``log(rationality)``."""
+        w = self.mdp.check_weights(weights)
+        beta = self.rationality if rationality is None else _positive(rationality)
+        loglik, grad_w = self._model.evaluate(self.mdp, self.counts, self._cache, w, beta)
+        self.n_evaluations += 1
+        return LikelihoodValue(float(loglik), grad_w, float(w @ grad_w))
+
+    def value_and_grad(self, weights) -> tuple[float, np.ndarray]:
+        """``(log_likelihood, gradient in weights)`` at the default rationality."""
+        v = self.evaluate(weights)
+        return v.loglik, v.grad_weights
+
+    def log_likelihood(self, weights, rationality: float | None = None) -> float:
+        """Log-likelihood only (same cost as :meth:`evaluate` for the soft model)."""
+        return self.evaluate(weights, rationality).loglik
+
+
+def _positive(beta) -> float:
+    b = float(beta)
+    if not np.isfinite(b) or b <= 0:
+        raise InputError(f"rationality: must be a positive finite number; got {beta!r}")
+    return b

@@ -1,0 +1,135 @@
+"""Recorded demonstrations: episodes of states and actions."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import NamedTuple
+
+import numpy as np
+
+from bayesirl.errors import InputError
+
+
+class Steps(NamedTuple):
+    """All demonstrated steps flattened: one entry per (state, action) pair."""
+
+    states: np.ndarray  # int64 (N,)
+    actions: np.ndarray  # int64 (N,)
+    times: np.ndarray  # int64 (N,) step index within its episode
+    episodes: np.ndarray  # int64 (N,) episode index
+
+
+class Demonstrations:
+    """A set of episodes, each with ``T`` actions and ``T`` or ``T + 1`` states.
+
+    Build with :meth:`from_arrays`. Ranges and dynamics are checked against a model by
+    :meth:`check` (the likelihood and simulation call it).
+    """
+
+    def __init__(self, episodes: Sequence[tuple[np.ndarray, np.ndarray]]) -> None:
+        if len(episodes) == 0:
+            raise InputError("demonstrations: the set is empty; give at least one episode")
+        self.episodes = tuple((s, a) for s, a in episodes)
+        lengths = [a.shape[0] for _, a in self.episodes]
+        self.lengths = np.asarray(lengths, dtype=np.int64)
+        self.steps = Steps(
+            np.concatenate([s[: a.shape[0]] for s, a in self.episodes]),
+            np.concatenate([a for _, a in self.episodes]),
+            np.concatenate([np.arange(n, dtype=np.int64) for n in lengths]),
+            np.repeat(np.arange(len(lengths), dtype=np.int64), lengths),
+        )
+
+    @classmethod
+    def from_arrays(cls, states_list, actions_list) -> Demonstrations:
+        """One episode per ``(states, actions)`` pair of integer sequences."""
+        states_list, actions_list = list(states_list), list(actions_list)
+        if len(states_list) != len(actions_list):
+            raise InputError(
+                f"demonstrations: {len(states_list)} state sequences but "
+                f"{len(actions_list)} action sequences"
+            )
+        episodes = []
+        for k, (s, a) in enumerate(zip(states_list, actions_list, strict=True)):
+            s_arr = _int_array(s, f"demonstrations: episode {k} states")
+            a_arr = _int_array(a, f"demonstrations: episode {k} actions")
+            if a_arr.shape[0] == 0:
+                raise InputError(f"demonstrations: episode {k} has no actions")
+            if s_arr.shape[0] not in (a_arr.shape[0], a_arr.shape[0] + 1):
+                raise InputError(
+                    f"demonstrations: episode {k} has {a_arr.shape[0]} actions and "
+                    f"{s_arr.shape[0]} states; expected {a_arr.shape[0]} or {a_arr.shape[0] + 1}"
+                )
+            episodes.append((s_arr, a_arr))
+        return cls(episodes)
+
+    @property
+    def n_episodes(self) -> int:
+        """Number of episodes."""
+        return len(self.episodes)
+
+    @property
+    def n_steps(self) -> int:
+        """Total number of demonstrated (state, action) pairs."""
+        return int(self.lengths.sum())
+
+    @property
+    def start_states(self) -> np.ndarray:
+        """First state of every episode."""
+        return np.asarray([s[0] for s, _ in self.episodes], dtype=np.int64)
+
+    def __repr__(self) -> str:
+        return f"Demonstrations(episodes={self.n_episodes}, steps={self.n_steps})"
+
+    def check(self, mdp) -> None:
+        """Check ranges, horizon and every recorded transition against ``mdp``.
+
+        Consecutive recorded states ``(s_t, s_{t+1})`` must have positive probability under
+        ``a_t``; with ``T + 1`` states this covers every step.
+        """
+        n_s, n_a = mdp.n_states, mdp.n_actions
+        p = mdp.transitions
+        for k, (s, a) in enumerate(self.episodes):
+            _in_range(s, n_s, f"demonstrations: episode {k} state")
+            _in_range(a, n_a, f"demonstrations: episode {k} action")
+            if mdp.horizon is not None and a.shape[0] > mdp.horizon:
+                raise InputError(
+                    f"demonstrations: episode {k} has {a.shape[0]} steps, "
+                    f"longer than the horizon {mdp.horizon}"
+                )
+            n_checked = min(a.shape[0], s.shape[0] - 1)
+            if n_checked <= 0:
+                continue
+            probs = np.asarray(p[s[:n_checked] * n_a + a[:n_checked], s[1 : n_checked + 1]])
+            zero = np.flatnonzero(probs.ravel() <= 0.0)
+            if zero.size:
+                t = int(zero[0])
+                raise InputError(
+                    f"demonstrations: episode {k} step {t}: the dynamics give probability 0 to "
+                    f"s={int(s[t])} --a={int(a[t])}--> s'={int(s[t + 1])}"
+                )
+
+
+def _int_array(x, what: str) -> np.ndarray:
+    arr = np.asarray(x)
+    if arr.ndim != 1:
+        raise InputError(f"{what}: expected a 1-D sequence; got shape {arr.shape}")
+    if arr.size and not np.issubdtype(arr.dtype, np.integer):
+        as_float = arr.astype(np.float64, copy=False) if arr.dtype != object else None
+        if as_float is None or not np.all(np.isfinite(as_float)) or np.any(as_float % 1 != 0):
+            bad = next(v for v in arr.tolist() if not _is_whole(v))
+            raise InputError(f"{what}: {bad!r} is not an integer index")
+    return arr.astype(np.int64)
+
+
+def _is_whole(v) -> bool:
+    try:
+        return float(v) == int(v)
+    except (TypeError, ValueError, OverflowError):
+        return False
+
+
+def _in_range(x: np.ndarray, n: int, what: str) -> None:
+    bad = np.flatnonzero((x < 0) | (x >= n))
+    if bad.size:
+        i = int(bad[0])
+        raise InputError(f"{what} {i} is {int(x[i])}; valid values are 0..{n - 1}")

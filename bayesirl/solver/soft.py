@@ -1,0 +1,134 @@
+"""Discounted soft Bellman equation: value iteration and Newton (soft policy iteration).
+
+With the reward already multiplied by the rationality (so the temperature is one):
+
+    Q(s,a) = r(s,a) + g * E[V(s') | s, a],    V(s) = log sum_a exp Q(s,a),
+    pi(a|s) = exp(Q(s,a) - V(s)).
+
+Both methods stop on the span of the Bellman residual: the backup is monotone and shifts by
+``g*c`` when ``V`` shifts by ``c``, so the MacQueen-Porteus bounds place the fixed point in
+``T(V) + g/(1-g) * [min D, max D]`` with ``D = T(V) - V``. We stop when that box is narrower
+than the tolerance and return its midpoint.
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from bayesirl.errors import SolverError
+from bayesirl.solver.dynamics import Dynamics
+from bayesirl.solver.linear import solve_discounted
+
+DEFAULT_TOL = 1e-10
+
+
+class SoftSolution(NamedTuple):
+    """Fixed point of the soft Bellman equation and how it was reached."""
+
+    values: np.ndarray  # (S,)
+    q: np.ndarray  # (S, A)
+    policy: np.ndarray  # (S, A)
+    log_policy: np.ndarray  # (S, A), computed as Q - V so that tiny probabilities keep digits
+    iterations: int  # backups (value iteration) or Newton steps
+    matvecs: int  # CSR sweeps spent, backups included
+
+
+def logsumexp_rows(q: np.ndarray) -> np.ndarray:
+    """Row-wise ``log sum exp`` of an ``(S, A)`` array, stable for large entries."""
+    qt = q.T  # action-major: each action's column is contiguous, so exp runs vectorised
+    top = qt.max(axis=0)
+    acc = np.zeros_like(top)
+    for row in qt:
+        acc += np.exp(row - top)
+    return top + np.log(acc)
+
+
+def soft_backup(
+    dyn: Dynamics, reward: np.ndarray, discount: float, values: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """One backup: returns ``(Q, T(V))``."""
+    q = reward + discount * dyn.expected_next(values)
+    return q, logsumexp_rows(q)
+
+
+def _tolerance(tol: float, values: np.ndarray) -> float:
+    # Absolute span tolerance, widened near the floating-point floor of |V| (for discount
+    # near 1, |V| ~ r/(1-g) and the residual cannot get below eps * |V|).
+    return max(tol, 64 * np.finfo(float).eps * float(np.max(np.abs(values), initial=1.0)))
+
+
+def _finish(q, new_values, residual, discount, iterations, matvecs) -> SoftSolution:
+    # q was computed from the last input V, new_values = T(V). The fixed point is
+    # T(V) + shift up to the tolerance; Q moves by g * (mid residual + shift) to match it.
+    scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    mid = 0.5 * (residual.max() + residual.min())
+    shift = scale * mid
+    log_policy = q - new_values[:, None]
+    policy = np.exp(log_policy)
+    return SoftSolution(
+        new_values + shift, q + discount * (mid + shift), policy, log_policy, iterations, matvecs
+    )
+
+
+def soft_value_iteration(
+    dyn: Dynamics,
+    reward: np.ndarray,
+    discount: float,
+    values0: np.ndarray | None = None,
+    tol: float = DEFAULT_TOL,
+    max_iter: int = 100_000,
+) -> SoftSolution:
+    """Soft value iteration with the span stopping rule, warm-started from ``values0``."""
+    values = np.zeros(dyn.n_states) if values0 is None else np.array(values0, dtype=float)
+    scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    for it in range(1, max_iter + 1):
+        q, new_values = soft_backup(dyn, reward, discount, values)
+        residual = new_values - values
+        if scale * (residual.max() - residual.min()) <= _tolerance(tol, new_values):
+            return _finish(q, new_values, residual, discount, it, it)
+        values = new_values
+    raise SolverError(
+        f"soft value iteration: span of the Bellman residual still "
+        f"{residual.max() - residual.min():.3e} after {max_iter} backups"
+    )
+
+
+def soft_newton(
+    dyn: Dynamics,
+    reward: np.ndarray,
+    discount: float,
+    values0: np.ndarray | None = None,
+    tol: float = DEFAULT_TOL,
+    max_iter: int = 50,
+) -> SoftSolution:
+    """Newton's method on ``V - T(V) = 0`` (soft policy iteration) with GMRES steps.
+
+    The Jacobian is ``I - g P_pi``; each step solves it inexactly with a forcing term that
+    shrinks with the residual, so convergence stays superlinear without oversolving early.
+    """
+    values = np.zeros(dyn.n_states) if values0 is None else np.array(values0, dtype=float)
+    scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    matvecs = 0
+    step = None
+    for it in range(1, max_iter + 1):
+        q, new_values = soft_backup(dyn, reward, discount, values)
+        matvecs += 1
+        residual = new_values - values
+        span = residual.max() - residual.min()
+        if scale * span <= _tolerance(tol, new_values):
+            return _finish(q, new_values, residual, discount, it, matvecs)
+        policy = np.exp(q - new_values[:, None])
+        # Remove the constant part: the policy ignores it and the final shift restores it.
+        centred = residual - residual.mean()
+        forcing = min(1e-2, max(1e-12, span / (1.0 + np.abs(new_values).max())))
+        step, used = solve_discounted(
+            dyn.policy_matrix(policy), discount, centred, x0=None, rtol=forcing,
+            what="soft Newton step",
+        )
+        matvecs += used
+        values = values + step
+    raise SolverError(
+        f"soft Newton: span of the Bellman residual still {span:.3e} after {max_iter} steps"
+    )
