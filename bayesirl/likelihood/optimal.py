@@ -78,7 +78,8 @@ def _evaluate_finite(mdp, counts, w, beta):
         loglik += float(counts.sa[t] @ log_policy.ravel())
         grad -= policy_feature_sum(mdp, policy, counts.s[t])
         if t + 1 < h:
-            sources[t + 1] = g * push_back(mdp, counts.sa[t] - (counts.s[t][:, None] * policy).ravel())
+            expected = (counts.s[t][:, None] * policy).ravel()
+            sources[t + 1] = g * push_back(mdp, counts.sa[t] - expected)
     m = forward_adjoint(dyn, greedy, g, sources)
     grad = grad + policy_feature_sum(mdp, greedy, m)
     return loglik, beta * grad
