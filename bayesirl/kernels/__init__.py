@@ -14,6 +14,14 @@ from bayesirl.kernels.csr import (
     select_rows,
     select_rows_ref,
 )
+from bayesirl.kernels.softmax import (
+    exp_into,
+    exp_into_ref,
+    scale_rows_by_policy,
+    scale_rows_by_policy_ref,
+    soft_max_actions,
+    soft_max_actions_ref,
+)
 from bayesirl.kernels.trajectories import sample_episodes, sample_episodes_ref
 
 __all__ = [
@@ -25,6 +33,12 @@ __all__ = [
     "scale_rows_ref",
     "select_rows",
     "select_rows_ref",
+    "exp_into",
+    "exp_into_ref",
+    "scale_rows_by_policy",
+    "scale_rows_by_policy_ref",
+    "soft_max_actions",
+    "soft_max_actions_ref",
     "sample_episodes",
     "sample_episodes_ref",
 ]

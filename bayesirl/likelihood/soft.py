@@ -14,6 +14,7 @@ import numpy as np
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
 from bayesirl.solver import (
     DEFAULT_TOL,
+    Preconditioner,
     forward_adjoint,
     soft_backward,
     soft_newton,
@@ -33,7 +34,10 @@ def new_cache(mdp, counts) -> dict:
         rho = -counts.s.copy()
         for t in range(1, mdp.horizon):
             rho[t] += g * push_back(mdp, counts.sa[t - 1])
-    return {"rho": rho, "values": None, "adjoint": None, "tol": DEFAULT_TOL}
+    return {
+        "rho": rho, "values": None, "adjoint": None, "tol": DEFAULT_TOL,
+        "precond": Preconditioner(),
+    }
 
 
 def evaluate(mdp, counts, cache, w, beta):
@@ -45,12 +49,16 @@ def evaluate(mdp, counts, cache, w, beta):
         m = forward_adjoint(mdp.dynamics, sol.policy, mdp.discount, cache["rho"])
         grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)
         return loglik, beta * grad
-    sol = soft_newton(mdp.dynamics, reward, mdp.discount, cache["values"], tol=cache["tol"])
+    sol = soft_newton(
+        mdp.dynamics, reward, mdp.discount, cache["values"], tol=cache["tol"],
+        precond=cache["precond"],
+    )
     cache["values"] = sol.values
-    loglik = float(counts.sa @ sol.log_policy.ravel())
+    loglik = float(np.sum(counts.sa.reshape(mdp.n_states, -1) * sol.log_policy))
     m, _ = solve_discounted(
-        mdp.dynamics.policy_matrix(sol.policy), mdp.discount, cache["rho"],
-        x0=cache["adjoint"], rtol=ADJOINT_RTOL, transpose=True, what="likelihood adjoint",
+        mdp.dynamics.policy_matrix_by_action(sol.policy_by_action), mdp.discount, cache["rho"],
+        x0=cache["adjoint"], rtol=ADJOINT_RTOL, transpose=True, precond=cache["precond"],
+        what="likelihood adjoint",
     )
     cache["adjoint"] = m
     grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)

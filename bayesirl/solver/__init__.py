@@ -6,7 +6,7 @@ Imports only :mod:`bayesirl.kernels` and :mod:`bayesirl.errors`.
 from bayesirl.solver.dynamics import Dynamics
 from bayesirl.solver.finite import FiniteSolution, forward_adjoint, soft_backward
 from bayesirl.solver.hard import HardSolution, evaluate_deterministic, policy_iteration
-from bayesirl.solver.linear import solve_discounted
+from bayesirl.solver.linear import Preconditioner, solve_discounted
 from bayesirl.solver.soft import (
     DEFAULT_TOL,
     SoftSolution,
@@ -21,6 +21,7 @@ __all__ = [
     "Dynamics",
     "FiniteSolution",
     "HardSolution",
+    "Preconditioner",
     "SoftSolution",
     "evaluate_deterministic",
     "forward_adjoint",

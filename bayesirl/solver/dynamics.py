@@ -7,7 +7,7 @@ from typing import NamedTuple
 import numpy as np
 import scipy.sparse as sp
 
-from bayesirl.kernels import csr_matvec, scale_rows, select_rows
+from bayesirl.kernels import scale_rows, scale_rows_by_policy, select_rows
 
 
 class Dynamics(NamedTuple):
@@ -18,26 +18,41 @@ class Dynamics(NamedTuple):
     data: np.ndarray  # float64 (nnz,)
     n_states: int
     n_actions: int
+    by_state: sp.csr_matrix  # the same matrix as a scipy object (its C mat-vec is fastest)
+    by_action: sp.csr_matrix  # rows reordered to a*S + s, so E[V'] comes out as (A, S)
 
     @classmethod
     def from_csr(cls, matrix: sp.csr_matrix, n_actions: int) -> Dynamics:
         """Wrap a canonical ``(S*A, S)`` CSR matrix."""
+        n_s = matrix.shape[1]
+        order = np.arange(n_s * n_actions).reshape(n_s, n_actions).T.ravel()
         return cls(
             matrix.indptr.astype(np.int64),
             matrix.indices.astype(np.int64),
             matrix.data.astype(np.float64),
-            matrix.shape[1],
+            n_s,
             n_actions,
+            matrix,
+            matrix[order].tocsr(),
         )
 
     def expected_next(self, values: np.ndarray) -> np.ndarray:
         """``E[V(s') | s, a]`` as an ``(S, A)`` array (one CSR sweep)."""
-        out = csr_matvec(self.indptr, self.indices, self.data, values)
-        return out.reshape(self.n_states, self.n_actions)
+        return (self.by_state @ values).reshape(self.n_states, self.n_actions)
+
+    def expected_next_by_action(self, values: np.ndarray) -> np.ndarray:
+        """``E[V(s') | s, a]`` as an action-major ``(A, S)`` array (one CSR sweep)."""
+        return (self.by_action @ values).reshape(self.n_actions, self.n_states)
 
     def policy_matrix(self, policy: np.ndarray) -> sp.csr_matrix:
         """``P_pi`` (S, S) for a stochastic policy ``(S, A)``."""
         data = scale_rows(self.indptr, self.data, np.ascontiguousarray(policy).ravel())
+        ptr = self.indptr[:: self.n_actions]
+        return sp.csr_matrix((data, self.indices, ptr), shape=(self.n_states, self.n_states))
+
+    def policy_matrix_by_action(self, policy_am: np.ndarray) -> sp.csr_matrix:
+        """``P_pi`` (S, S) for an action-major stochastic policy ``(A, S)``."""
+        data = scale_rows_by_policy(self.indptr, self.data, policy_am)
         ptr = self.indptr[:: self.n_actions]
         return sp.csr_matrix((data, self.indices, ptr), shape=(self.n_states, self.n_states))
 
@@ -49,7 +64,4 @@ class Dynamics(NamedTuple):
 
     def matrix(self) -> sp.csr_matrix:
         """The ``(S*A, S)`` transition matrix."""
-        return sp.csr_matrix(
-            (self.data, self.indices, self.indptr),
-            shape=(self.n_states * self.n_actions, self.n_states),
-        )
+        return self.by_state
