@@ -203,3 +203,43 @@ def test_valid_edge_inputs_are_accepted_and_stored_unchanged():
 def test_string_state_labels_raise_input_error():
     with pytest.raises(InputError, match=r"episode 0 states"):
         _demos([["a", "b"]], [[0]])
+
+
+@pytest.mark.xfail(strict=True, reason="TabularMDP runs eliminate_zeros/sum_duplicates/"
+                   "sort_indices on arrays shared with the caller's CSR matrix "
+                   "(validate.transition_matrix: sp.csr_matrix(x) does not copy), so the "
+                   "caller's matrix loses its stored zeros (its indptr is rewritten)")
+def test_sparse_transitions_given_by_the_caller_are_not_modified():
+    base = _sparse(_cycle())
+    # Row (0, 0) gets an explicit stored zero at s'=0 beside its 1 at s'=1.
+    indptr = np.concatenate([[0], base.indptr[1:] + 1])
+    indices = np.concatenate([[0], base.indices])
+    data = np.concatenate([[0.0], base.data])
+    user = sp.csr_matrix((data, indices, indptr), shape=base.shape)
+    before = (user.indptr.copy(), user.indices.copy(), user.data.copy())
+    assert user.nnz == S * A + 1
+    bi.TabularMDP(user, FEATS)
+    np.testing.assert_array_equal(user.indptr, before[0])
+    np.testing.assert_array_equal(user.indices, before[1])
+    np.testing.assert_array_equal(user.data, before[2])
+
+
+@pytest.mark.xfail(strict=True, reason="validated inputs are kept by reference: writing to "
+                   "the caller's sparse matrix after construction changes mdp.transitions "
+                   "but not mdp.dynamics (which copied), so the dynamics check and the "
+                   "solvers see different MDPs")
+def test_model_transitions_do_not_alias_the_callers_matrix():
+    user = _sparse(_cycle())
+    mdp = bi.TabularMDP(user, FEATS)
+    user.data[:] = 7.0  # invalid, after validation
+    np.testing.assert_array_equal(mdp.transitions.toarray().reshape(S, A, S), _cycle())
+
+
+@pytest.mark.xfail(strict=True, reason="validated features are kept by reference "
+                   "(validate.feature_array uses np.asarray): a NaN written into the caller's "
+                   "array after construction reaches mdp.features unchecked")
+def test_model_features_do_not_alias_the_callers_array():
+    user = np.ones((S, F))
+    mdp = bi.TabularMDP(_cycle(), user)
+    user[0, 0] = np.nan
+    assert np.all(np.isfinite(mdp.features))
