@@ -119,6 +119,17 @@ def _fd_with_bound(f, x, h=FD_STEP, delta=WARM_LOGLIK_TOL):
     return d1, bound
 
 
+def _ragged(demos):
+    """Episodes cut to lengths T, T-1, ... (so finite-horizon counts differ by time step), every
+    other one without its final state."""
+    states, actions = [], []
+    for k, (st, ac) in enumerate(demos.episodes):
+        t = ac.shape[0] - k % ac.shape[0]
+        states.append(st[: t + (k % 2)])
+        actions.append(ac[:t])
+    return bi.Demonstrations.from_arrays(states, actions)
+
+
 CASES = [
     pytest.param(sa, q, g, h, id=f"{'sa' if sa else 's'}-{q}-g{g}-H{h}")
     for sa in (False, True)
@@ -131,8 +142,8 @@ CASES = [
 def test_gradient_matches_central_differences(state_action, q_model, discount, horizon):
     seed = 11 * (1 + 2 * state_action) + 3 * HORIZONS.index((discount, horizon))
     mdp = _case_mdp(seed, state_action, discount, horizon)
-    demos = bi.simulate(mdp, np.random.default_rng(seed).normal(size=mdp.n_features),
-                        episodes=6, length=horizon or 10, rationality=BETA, seed=seed)
+    demos = _ragged(bi.simulate(mdp, np.random.default_rng(seed).normal(size=mdp.n_features),
+                                episodes=6, length=horizon or 10, rationality=BETA, seed=seed))
     lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q_model)
     w = _weights(mdp, seed, q_model)
     v = lik.evaluate(w, BETA)
