@@ -12,6 +12,7 @@ energy error (a divergence) and never use the bad gradient, so no NaN propagates
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 
 import numpy as np
@@ -24,6 +25,7 @@ __all__ = [
     "check_inv_mass",
     "kinetic_energy",
     "leapfrog",
+    "leapfrog_with_velocity",
     "sample_momentum",
     "velocity",
 ]
@@ -103,7 +105,8 @@ def kinetic_energy(momentum: np.ndarray, inv_mass: np.ndarray) -> float:
     float
         The kinetic energy.
     """
-    return 0.5 * float(momentum @ velocity(momentum, inv_mass))
+    with np.errstate(over="ignore", invalid="ignore"):  # overflow -> inf energy: divergent
+        return 0.5 * float(momentum @ velocity(momentum, inv_mass))
 
 
 def sample_momentum(rng: np.random.Generator, inv_mass: np.ndarray) -> np.ndarray:
@@ -160,15 +163,49 @@ def leapfrog(
     grad : numpy.ndarray
         Gradient at the new position (the old one if the new one is unusable).
     """
-    half_momentum = momentum + 0.5 * step_size * grad
-    new_position = position + step_size * velocity(half_momentum, inv_mass)
-    if not np.all(np.isfinite(new_position)):
-        return new_position, half_momentum, -np.inf, grad
+    return leapfrog_with_velocity(
+        logdensity_and_grad, position, momentum, grad, step_size, inv_mass
+    )[:4]
+
+
+def leapfrog_with_velocity(
+    logdensity_and_grad: LogDensityAndGrad,
+    position: np.ndarray,
+    momentum: np.ndarray,
+    grad: np.ndarray,
+    step_size: float,
+    inv_mass: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, float, np.ndarray, np.ndarray, float]:
+    """As :func:`leapfrog`, also returning the new velocity ``M^{-1} p`` and kinetic energy.
+
+    NUTS needs both at every point; computing them here saves a matrix product per step.
+    For an unusable point the velocity is the half-step momentum and the kinetic energy
+    is ``inf``.
+
+    Returns
+    -------
+    position, momentum, logdensity, grad :
+        As :func:`leapfrog`.
+    p_sharp : numpy.ndarray
+        ``M^{-1} p`` at the new momentum.
+    kinetic : float
+        Kinetic energy at the new momentum.
+    """
+    # An unstable step may overflow: that is a divergence to report, not a warning, and
+    # the errstate covers only our arithmetic, never the user's log density.
+    with np.errstate(over="ignore", invalid="ignore"):
+        half_momentum = momentum + 0.5 * step_size * grad
+        new_position = position + step_size * velocity(half_momentum, inv_mass)
+    if not np.isfinite(new_position).all():
+        return new_position, half_momentum, -math.inf, grad, half_momentum, math.inf
     logdensity, new_grad = logdensity_and_grad(new_position)
     logdensity = float(logdensity)
     new_grad = np.asarray(new_grad, dtype=float)
     # +inf is as unusable as NaN: it would make every other point weightless.
-    if not (np.isfinite(logdensity) and np.all(np.isfinite(new_grad))):
-        return new_position, half_momentum, -np.inf, grad
-    new_momentum = half_momentum + 0.5 * step_size * new_grad
-    return new_position, new_momentum, logdensity, new_grad
+    if not (math.isfinite(logdensity) and np.isfinite(new_grad).all()):
+        return new_position, half_momentum, -math.inf, grad, half_momentum, math.inf
+    with np.errstate(over="ignore", invalid="ignore"):
+        new_momentum = half_momentum + 0.5 * step_size * new_grad
+        p_sharp = velocity(new_momentum, inv_mass)
+        kinetic = 0.5 * float(new_momentum @ p_sharp)
+    return new_position, new_momentum, logdensity, new_grad, p_sharp, kinetic

@@ -31,7 +31,7 @@ from bayesirl.sampler.integrators import (
     LogDensityAndGrad,
     check_inv_mass,
     kinetic_energy,
-    leapfrog,
+    leapfrog_with_velocity,
     sample_momentum,
     velocity,
 )
@@ -157,7 +157,7 @@ def _merge(earlier: _Tree, later: _Tree, proposal: _Point, log_weight: float) ->
     return _Tree(earlier.left, later.right, proposal, log_weight, rho, not turning)
 
 
-def _join(ctx: _Context, old: _Tree, new: _Tree, direction: int, proposal: _Point) -> _Tree:
+def _join(old: _Tree, new: _Tree, direction: int, proposal: _Point) -> _Tree:
     log_weight = _log_add_exp(old.log_weight, new.log_weight)
     if direction > 0:
         return _merge(old, new, proposal, log_weight)
@@ -165,7 +165,7 @@ def _join(ctx: _Context, old: _Tree, new: _Tree, direction: int, proposal: _Poin
 
 
 def _leaf(ctx: _Context, start: _Point, direction: int) -> _Tree:
-    position, momentum, logdensity, grad = leapfrog(
+    position, momentum, logdensity, grad, p_sharp, kinetic = leapfrog_with_velocity(
         ctx.logdensity_and_grad,
         start.position,
         start.momentum,
@@ -174,14 +174,15 @@ def _leaf(ctx: _Context, start: _Point, direction: int) -> _Tree:
         ctx.inv_mass,
     )
     ctx.n_steps += 1
-    energy = -logdensity + kinetic_energy(momentum, ctx.inv_mass)
-    if not np.isfinite(energy):  # -inf log density or overflowing momentum
+    energy = kinetic - logdensity
+    if not math.isfinite(energy):  # -inf log density or overflowing momentum
         energy = math.inf
     delta = ctx.energy0 - energy
     ctx.sum_accept += 1.0 if delta > 0 else math.exp(delta)
-    divergent = -delta > ctx.max_energy_error
+    # A non-finite point diverges whatever the threshold, so it can never be selected.
+    divergent = energy == math.inf or -delta > ctx.max_energy_error
     ctx.divergent = ctx.divergent or divergent
-    point = _Point(position, momentum, logdensity, grad, velocity(momentum, ctx.inv_mass), energy)
+    point = _Point(position, momentum, logdensity, grad, p_sharp, energy)
     return _Tree(point, point, point, delta, momentum, not divergent)
 
 
@@ -200,7 +201,7 @@ def _build(ctx: _Context, start: _Point, direction: int, depth: int) -> _Tree:
     log_weight = _log_add_exp(first.log_weight, second.log_weight)
     take_second = ctx.rng.uniform() < math.exp(second.log_weight - log_weight)
     proposal = second.proposal if take_second else first.proposal
-    return _join(ctx, first, second, direction, proposal)
+    return _join(first, second, direction, proposal)
 
 
 def step(
@@ -261,7 +262,7 @@ def step(
         # Biased progressive sampling: favour the new subtree, which moves further away.
         accept = math.exp(min(0.0, subtree.log_weight - tree.log_weight))
         proposal = subtree.proposal if rng.uniform() < accept else tree.proposal
-        tree = _join(ctx, tree, subtree, direction, proposal)
+        tree = _join(tree, subtree, direction, proposal)
         if not tree.valid:
             break
     chosen = tree.proposal

@@ -1,0 +1,32 @@
+"""Generic MCMC kernels driven by a ``theta -> (log density, gradient)`` callable.
+
+* :mod:`~bayesirl.sampler.nuts` - multinomial No-U-Turn Sampler (``init``, ``step``).
+* :mod:`~bayesirl.sampler.rwm` - random-walk Metropolis with the same pattern.
+* :mod:`~bayesirl.sampler.adaptation` - dual averaging, Welford (co)variance, Stan's
+  warmup windows and the initial step-size search.
+* :mod:`~bayesirl.sampler.integrators` - leapfrog and kinetic energy.
+* :func:`run_chain` - warmup plus sampling for one chain, with picklable output.
+
+Nothing here knows about MDPs or rewards.
+"""
+
+from __future__ import annotations
+
+from bayesirl.sampler import adaptation, integrators, nuts, rwm
+from bayesirl.sampler.chain import METHODS, ChainResult, run_chain
+from bayesirl.sampler.nuts import NUTSInfo, NUTSState
+from bayesirl.sampler.rwm import RWMInfo, RWMState
+
+__all__ = [
+    "METHODS",
+    "ChainResult",
+    "NUTSInfo",
+    "NUTSState",
+    "RWMInfo",
+    "RWMState",
+    "adaptation",
+    "integrators",
+    "nuts",
+    "rwm",
+    "run_chain",
+]
