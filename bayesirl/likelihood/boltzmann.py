@@ -35,6 +35,9 @@ class BoltzmannLikelihood:
     rationality : float
         Default inverse temperature ``beta`` (a sampler may pass another per call).
     q : {"soft", "optimal"}
+    tol : float
+        Span tolerance of the soft Bellman solve (discounted model): the log-likelihood is
+        then accurate to about ``2 * n_steps * tol``.
 
     Notes
     -----
@@ -43,7 +46,9 @@ class BoltzmannLikelihood:
     The policy depends on ``beta * w`` only, hence ``dL/dlog(beta) = w . dL/dw`` exactly.
     """
 
-    def __init__(self, mdp, demos, rationality: float = 1.0, q: str = "soft") -> None:
+    def __init__(
+        self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10
+    ) -> None:
         if q not in ("soft", "optimal"):
             raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
         demos.check(mdp)
@@ -51,7 +56,8 @@ class BoltzmannLikelihood:
         self.rationality = _positive(rationality)
         self.counts = demo_counts(mdp, demos)
         self._model = soft if q == "soft" else optimal
-        self._cache = self._model.new_cache(mdp, self.counts)
+        self.tol = float(tol)
+        self._cache = self._model.new_cache(mdp, self.counts, self.tol)
         self.n_evaluations = 0
 
     @property
@@ -61,7 +67,7 @@ class BoltzmannLikelihood:
 
     def reset(self) -> None:
         """Forget the warm starts (the next call solves from scratch)."""
-        self._cache = self._model.new_cache(self.mdp, self.counts)
+        self._cache = self._model.new_cache(self.mdp, self.counts, self.tol)
 
     def evaluate(self, weights, rationality: float | None = None) -> LikelihoodValue:
         """Log-likelihood with gradients in ``weights`` and ``log(rationality)``."""

@@ -19,8 +19,8 @@ from bayesirl.solver.finite import forward_adjoint
 ADJOINT_RTOL = 1e-11
 
 
-def new_cache(mdp, counts) -> dict:
-    """Warm start: the previous greedy policy and adjoint."""
+def new_cache(mdp, counts, tol: float = 0.0) -> dict:
+    """Warm start: the previous greedy policy and adjoint (policy iteration is exact)."""
     return {"greedy": None, "adjoint": None}
 
 

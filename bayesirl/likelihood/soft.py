@@ -25,7 +25,7 @@ from bayesirl.solver import (
 ADJOINT_RTOL = 1e-11
 
 
-def new_cache(mdp, counts) -> dict:
+def new_cache(mdp, counts, tol: float = DEFAULT_TOL) -> dict:
     """Warm-start storage plus the weight-independent adjoint source ``rho``."""
     g = mdp.discount
     if mdp.horizon is None:
@@ -35,7 +35,7 @@ def new_cache(mdp, counts) -> dict:
         for t in range(1, mdp.horizon):
             rho[t] += g * push_back(mdp, counts.sa[t - 1])
     return {
-        "rho": rho, "values": None, "adjoint": None, "tol": DEFAULT_TOL,
+        "rho": rho, "values": None, "adjoint": None, "tol": tol,
         "precond": Preconditioner(),
     }
 

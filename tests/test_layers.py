@@ -1,0 +1,76 @@
+"""The one-way flow of imports documented in DEVELOPERS.md ("Layers")."""
+
+from __future__ import annotations
+
+import ast
+from pathlib import Path
+
+import pytest
+
+PACKAGE = Path(__file__).resolve().parents[1] / "bayesirl"
+
+# Lower number = lower layer; a module may import only from its own layer or lower ones.
+LAYERS = {
+    "errors": 0,
+    "kernels": 1,
+    "solver": 2,
+    "model": 3,
+    "likelihood": 4,
+    "sampler": 5,
+    "posterior": 6,
+    "priors": 5,
+    "report": 7,
+    "design": 7,
+    "io": 8,
+    "bench": 9,
+    "cli": 10,
+}
+
+
+def _layer_of(dotted: str) -> str:
+    parts = dotted.split(".")
+    return parts[1] if len(parts) > 1 else ""
+
+
+def violations(module: str, imported: list[str]) -> list[str]:
+    """Imports of ``module`` (dotted) that reach a higher layer or an unregistered one."""
+    own = _layer_of(module)
+    bad = []
+    for target in imported:
+        if not target.startswith("bayesirl.") or _layer_of(target) == own:
+            continue
+        layer = _layer_of(target)
+        if layer not in LAYERS or own not in LAYERS or LAYERS[layer] > LAYERS[own]:
+            bad.append(f"{module} imports {target}")
+    return bad
+
+
+def _imports(path: Path) -> list[str]:
+    out = []
+    for node in ast.walk(ast.parse(path.read_text())):
+        if isinstance(node, ast.Import):
+            out += [a.name for a in node.names]
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            out.append(node.module)
+    return out
+
+
+def _modules():
+    for path in sorted(PACKAGE.rglob("*.py")):
+        rel = path.relative_to(PACKAGE.parent).with_suffix("")
+        dotted = ".".join(rel.parts)
+        if dotted != "bayesirl.__init__":  # the top-level namespace re-exports every layer
+            yield dotted, path
+
+
+@pytest.mark.parametrize("module,path", list(_modules()), ids=lambda x: str(x))
+def test_imports_flow_downward(module, path):
+    assert violations(module, _imports(path)) == []
+
+
+def test_checker_catches_an_upward_import():
+    # Negative control: the checker must flag a solver module importing the model layer and
+    # a module of a package nobody registered.
+    assert violations("bayesirl.solver.soft", ["bayesirl.model.mdp"]) != []
+    assert violations("bayesirl.solver.soft", ["bayesirl.kernels"]) == []
+    assert violations("bayesirl.newthing.x", ["bayesirl.errors"]) != []
