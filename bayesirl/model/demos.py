@@ -110,20 +110,26 @@ class Demonstrations:
 
 
 def _int_array(x, what: str) -> np.ndarray:
-    arr = np.asarray(x)
+    try:
+        arr = np.asarray(x)
+    except (TypeError, ValueError) as err:
+        raise InputError(f"{what}: not a sequence of integer indices ({err})") from None
     if arr.ndim != 1:
         raise InputError(f"{what}: expected a 1-D sequence; got shape {arr.shape}")
+    if arr.dtype == bool:
+        raise InputError(f"{what}: got booleans; expected integer indices")
     if arr.size and not np.issubdtype(arr.dtype, np.integer):
-        as_float = arr.astype(np.float64, copy=False) if arr.dtype != object else None
-        if as_float is None or not np.all(np.isfinite(as_float)) or np.any(as_float % 1 != 0):
-            bad = next(v for v in arr.tolist() if not _is_whole(v))
+        bad = next((v for v in arr.tolist() if not _is_whole(v)), None)
+        if bad is not None:
             raise InputError(f"{what}: {bad!r} is not an integer index")
     return arr.astype(np.int64)
 
 
 def _is_whole(v) -> bool:
+    if isinstance(v, bool | str | bytes):
+        return False
     try:
-        return float(v) == int(v)
+        return np.isfinite(float(v)) and float(v) == int(v)
     except (TypeError, ValueError, OverflowError):
         return False
 

@@ -66,3 +66,24 @@ def gymnasium_transitions(env) -> tuple[sp.csr_matrix, np.ndarray | None]:
         start = np.asarray(start, dtype=np.float64)
         start = np.concatenate([start, [0.0]]) if extra else start
     return m, start
+
+
+def check_feature_rows(env, features, n_states: int) -> None:
+    """Explain a feature table of the wrong length, including the added terminal state."""
+    shape = np.shape(features)
+    rows = shape[0] if shape else 0
+    _, table = _table(env)
+    if rows == n_states:
+        return
+    if n_states == len(table) + 1:
+        raise InputError(
+            f"from_gymnasium: features have shape {shape}; expected ({n_states}, F) or "
+            f"({n_states}, A, F): "
+            f"its {len(table)} states plus one absorbing state (index {len(table)}) that "
+            "receives its terminal outcomes, which also lead to states reached without "
+            "terminating. Append one row of features for that absorbing state."
+        )
+    raise InputError(
+        f"from_gymnasium: features have shape {shape}; expected ({n_states}, F) or "
+        f"({n_states}, A, F) for the environment's {n_states} states"
+    )

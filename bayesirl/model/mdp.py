@@ -57,6 +57,10 @@ class TabularMDP:
         self.start = None if start is None else validate.distribution(start, n_s, "start")
         self.feature_names = validate.names(feature_names, self.n_features)
         self.dynamics = Dynamics.from_csr(matrix, n_a)
+        # Validated arrays are frozen: a model is immutable once checked.
+        for arr in (matrix.data, matrix.indices, matrix.indptr, self.features, self.start):
+            if arr is not None:
+                arr.setflags(write=False)
 
     def __repr__(self) -> str:
         h = "infinite" if self.horizon is None else str(self.horizon)
@@ -124,9 +128,10 @@ class TabularMDP:
         is made absorbing (see :mod:`bayesirl.model.gym`). Extra keyword arguments go to the
         constructor (``horizon``, ``start``, ``feature_names``).
         """
-        from bayesirl.model.gym import gymnasium_transitions
+        from bayesirl.model.gym import check_feature_rows, gymnasium_transitions
 
         matrix, start = gymnasium_transitions(env)
+        check_feature_rows(env, features, matrix.shape[1])
         kwargs.setdefault("start", start)
         return cls(matrix, features, discount=discount, **kwargs)
 

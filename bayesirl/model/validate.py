@@ -13,7 +13,7 @@ ROW_SUM_TOL = 1e-8
 def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
     """Return the canonical ``(S*A, S)`` CSR matrix, ``S`` and ``A`` after checking it."""
     if sp.issparse(transitions):
-        m = sp.csr_matrix(transitions, dtype=np.float64)
+        m = sp.csr_matrix(transitions, dtype=np.float64, copy=True)  # never alias the caller
         n_rows, n_s = m.shape
         if n_s == 0 or n_rows % n_s != 0:
             raise InputError(
@@ -45,7 +45,7 @@ def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
         row = int(np.searchsorted(m.indptr, k, side="right") - 1)
         raise InputError(
             f"transitions: P(s'={int(m.indices[k])} | s={row // n_a}, a={row % n_a}) = "
-            f"{m.data[k]!r}; probabilities must be finite and non-negative"
+            f"{float(m.data[k])!r}; probabilities must be finite and non-negative"
         )
     m.eliminate_zeros()
     m.sort_indices()
@@ -54,15 +54,18 @@ def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
     if off.any():
         row = int(np.flatnonzero(off)[0])
         raise InputError(
-            f"transitions: row for (s={row // n_a}, a={row % n_a}) sums to {sums[row]!r}, "
-            f"expected 1 within {ROW_SUM_TOL:g} ({int(off.sum())} rows off in total)"
+            f"transitions: row for (s={row // n_a}, a={row % n_a}) sums to {float(sums[row])!r}, "
+            f"expected 1 within {ROW_SUM_TOL:g} ({int(off.sum())} row(s) off in total)"
         )
     return m, n_s, n_a
 
 
 def feature_array(features, n_s: int, n_a: int) -> np.ndarray:
     """Check ``(S, F)`` or ``(S, A, F)`` features: shape and finiteness."""
-    f = np.asarray(features, dtype=np.float64)
+    try:
+        f = np.array(features, dtype=np.float64)  # a copy: later writes can't leak in
+    except (TypeError, ValueError) as err:
+        raise InputError(f"features: not a numeric array ({err})") from None
     ok = (f.ndim == 2 and f.shape[0] == n_s) or (f.ndim == 3 and f.shape[:2] == (n_s, n_a))
     if not ok or f.shape[-1] == 0:
         raise InputError(
@@ -73,17 +76,24 @@ def feature_array(features, n_s: int, n_a: int) -> np.ndarray:
     if bad.any():
         where = tuple(int(i) for i in np.argwhere(bad)[0])
         label = "(s, f)" if f.ndim == 2 else "(s, a, f)"
-        raise InputError(f"features: entry {label} = {where} is {f[where]!r}; must be finite")
+        value = float(f[where])
+        raise InputError(f"features: entry {label} = {where} is {value!r}; must be finite")
     return f
 
 
 def horizon_and_discount(discount, horizon) -> tuple[float, int | None]:
     """Check the discount (``[0, 1)`` when infinite, ``[0, 1]`` with a horizon) and horizon."""
     if horizon is not None:
-        if isinstance(horizon, bool) or int(horizon) != horizon or horizon <= 0:
+        whole_float = isinstance(horizon, float | np.floating) and float(horizon).is_integer()
+        ok = isinstance(horizon, int | np.integer) or whole_float
+        ok = ok and not isinstance(horizon, bool)
+        if not ok or horizon <= 0:
             raise InputError(f"horizon: must be a positive integer or None; got {horizon!r}")
         horizon = int(horizon)
-    g = float(discount)
+    try:
+        g = float(discount)
+    except (TypeError, ValueError):
+        raise InputError(f"discount: must be a number; got {discount!r}") from None
     upper_ok = g <= 1.0 if horizon is not None else g < 1.0
     if not np.isfinite(g) or g < 0.0 or not upper_ok:
         span = "[0, 1]" if horizon is not None else "[0, 1) for an infinite horizon"
@@ -93,15 +103,19 @@ def horizon_and_discount(discount, horizon) -> tuple[float, int | None]:
 
 def distribution(p, n_s: int, what: str) -> np.ndarray:
     """Check a probability vector over states."""
-    d = np.asarray(p, dtype=np.float64)
+    d = np.array(p, dtype=np.float64)
     if d.shape != (n_s,):
         raise InputError(f"{what}: expected a distribution of shape ({n_s},); got {d.shape}")
     bad = ~np.isfinite(d) | (d < 0)
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"{what}: entry {i} is {d[i]!r}; must be finite and non-negative")
+        raise InputError(
+            f"{what}: entry {i} is {float(d[i])!r}; must be finite and non-negative"
+        )
     if abs(d.sum() - 1.0) > ROW_SUM_TOL:
-        raise InputError(f"{what}: sums to {d.sum()!r}, expected 1 within {ROW_SUM_TOL:g}")
+        raise InputError(
+            f"{what}: sums to {float(d.sum())!r}, expected 1 within {ROW_SUM_TOL:g}"
+        )
     return d
 
 

@@ -137,9 +137,6 @@ def test_taxi_features_without_the_absorbing_row_are_refused():
     assert "(501, F)" in str(info.value) and "(500, 2)" in str(info.value)
 
 
-@pytest.mark.xfail(strict=True, reason="the Taxi feature-shape error says 'expected shape "
-                   "(501, F) ... got (500, 2)' without saying that row 500 is the absorbing "
-                   "state from_gymnasium appends for terminal outcomes")
 def test_taxi_feature_error_explains_the_added_state():
     env = gym.make("Taxi-v4")
     with pytest.raises(InputError, match=r"absorbing"):

@@ -197,18 +197,11 @@ def test_valid_edge_inputs_are_accepted_and_stored_unchanged():
     bi.BoltzmannLikelihood(_mdp(horizon=2), _demos([[0, 1, 2], [0, 1]], [[0, 0], [0, 0]]))
 
 
-@pytest.mark.xfail(strict=True, reason="non-numeric state labels escape as a bare numpy "
-                   "ValueError ('could not convert string to float') instead of an InputError "
-                   "naming the episode (bayesirl/model/demos.py::_int_array)")
 def test_string_state_labels_raise_input_error():
     with pytest.raises(InputError, match=r"episode 0 states"):
         _demos([["a", "b"]], [[0]])
 
 
-@pytest.mark.xfail(strict=True, reason="TabularMDP runs eliminate_zeros/sum_duplicates/"
-                   "sort_indices on arrays shared with the caller's CSR matrix "
-                   "(validate.transition_matrix: sp.csr_matrix(x) does not copy), so the "
-                   "caller's matrix loses its stored zeros (its indptr is rewritten)")
 def test_sparse_transitions_given_by_the_caller_are_not_modified():
     base = _sparse(_cycle())
     # Row (0, 0) gets an explicit stored zero at s'=0 beside its 1 at s'=1.
@@ -224,10 +217,6 @@ def test_sparse_transitions_given_by_the_caller_are_not_modified():
     np.testing.assert_array_equal(user.data, before[2])
 
 
-@pytest.mark.xfail(strict=True, reason="validated inputs are kept by reference: writing to "
-                   "the caller's sparse matrix after construction changes mdp.transitions "
-                   "but not mdp.dynamics (which copied), so the dynamics check and the "
-                   "solvers see different MDPs")
 def test_model_transitions_do_not_alias_the_callers_matrix():
     user = _sparse(_cycle())
     mdp = bi.TabularMDP(user, FEATS)
@@ -235,9 +224,6 @@ def test_model_transitions_do_not_alias_the_callers_matrix():
     np.testing.assert_array_equal(mdp.transitions.toarray().reshape(S, A, S), _cycle())
 
 
-@pytest.mark.xfail(strict=True, reason="validated features are kept by reference "
-                   "(validate.feature_array uses np.asarray): a NaN written into the caller's "
-                   "array after construction reaches mdp.features unchecked")
 def test_model_features_do_not_alias_the_callers_array():
     user = np.ones((S, F))
     mdp = bi.TabularMDP(_cycle(), user)
