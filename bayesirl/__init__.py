@@ -5,11 +5,19 @@ from __future__ import annotations
 from bayesirl.errors import InputError, SolverError
 from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
 from bayesirl.model import Demonstrations, TabularMDP, simulate
+from bayesirl.posterior import Posterior, sample
+from bayesirl.priors import Laplace, LogNormal, Normal, Uniform
 
 __version__ = "0.1.0"
 
 __all__ = [
     "BoltzmannLikelihood",
+    "Laplace",
+    "LogNormal",
+    "Normal",
+    "Posterior",
+    "Uniform",
+    "sample",
     "Demonstrations",
     "InputError",
     "LikelihoodValue",

@@ -14,6 +14,12 @@ from bayesirl.kernels.csr import (
     select_rows,
     select_rows_ref,
 )
+from bayesirl.kernels.dense import (
+    adjoint_dense,
+    adjoint_dense_ref,
+    soft_newton_dense,
+    soft_newton_dense_ref,
+)
 from bayesirl.kernels.softmax import (
     exp_into,
     exp_into_ref,
@@ -25,6 +31,10 @@ from bayesirl.kernels.softmax import (
 from bayesirl.kernels.trajectories import sample_episodes, sample_episodes_ref
 
 __all__ = [
+    "adjoint_dense",
+    "adjoint_dense_ref",
+    "soft_newton_dense",
+    "soft_newton_dense_ref",
     "csr_matvec",
     "csr_matvec_ref",
     "csr_rmatvec",

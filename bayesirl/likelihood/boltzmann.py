@@ -60,6 +60,19 @@ class BoltzmannLikelihood:
         self._cache = self._model.new_cache(mdp, self.counts, self.tol)
         self.n_evaluations = 0
 
+    def __getstate__(self) -> dict:
+        # Warm starts (and the LU factorisation, which does not pickle) stay behind: a copy
+        # sent to another process starts cold and builds its own.
+        state = self.__dict__.copy()
+        state["_cache"] = None
+        state["_model"] = None  # a module; restored from ``q``
+        return state
+
+    def __setstate__(self, state: dict) -> None:
+        self.__dict__.update(state)
+        self._model = soft if self.q == "soft" else optimal
+        self._cache = self._model.new_cache(self.mdp, self.counts, self.tol)
+
     @property
     def n_features(self) -> int:
         """Number of reward weights."""

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayesirl.kernels import adjoint_dense
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
 from bayesirl.solver import (
     DEFAULT_TOL,
@@ -55,6 +56,10 @@ def evaluate(mdp, counts, cache, w, beta):
     )
     cache["values"] = sol.values
     loglik = float(np.sum(counts.sa.reshape(mdp.n_states, -1) * sol.log_policy))
+    if mdp.dynamics.dense is not None:
+        m = adjoint_dense(mdp.dynamics.dense, sol.policy_by_action, mdp.discount, cache["rho"])
+        grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)
+        return loglik, beta * grad
     m, _ = solve_discounted(
         mdp.dynamics.policy_matrix_by_action(sol.policy_by_action), mdp.discount, cache["rho"],
         x0=cache["adjoint"], rtol=ADJOINT_RTOL, transpose=True, precond=cache["precond"],

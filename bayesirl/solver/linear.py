@@ -1,11 +1,14 @@
 """Solves of ``(I - g M) x = b`` and ``(I - g M^T) x = b`` for a policy matrix ``M``.
 
-GMRES from a warm start, preconditioned, when the problem mixes slowly, by a sparse LU of an
-earlier ``I - g M``. Consecutive calls (Newton steps, nearby weights along a sampler path) see
-policies that differ by little, so a stale factorisation is an excellent preconditioner and
-is rebuilt only when GMRES starts needing many iterations. A factorisation is only tried when
-the fill it can produce is bounded (envelope of the reverse Cuthill-McKee ordering): on
-fast-mixing random MDPs it would be dense, and there GMRES converges quickly without it.
+GMRES from a warm start, preconditioned by a sparse LU of an earlier ``I - g M``.
+Consecutive calls (Newton steps, nearby weights along a sampler path) see policies that
+differ by little, so a stale factorisation is an excellent preconditioner. When to factor
+afresh is decided by a deterministic cost model (counts of non-zeros and iterations, never
+clock time, so the same seed always takes the same path): refactor when the predicted cost
+of iterating with the stale factors exceeds that of a new factorisation. Small problems end
+up factoring at every solve (direct solves), slow-mixing large ones reuse factors, and
+fast-mixing random MDPs, whose factors would fill in densely (bounded beforehand by the
+reverse Cuthill-McKee envelope), run plain GMRES, which converges quickly there.
 """
 
 from __future__ import annotations
@@ -18,25 +21,36 @@ from scipy.sparse.csgraph import reverse_cuthill_mckee
 from bayesirl.errors import SolverError
 from bayesirl.solver.krylov import gmres
 
-# Unpreconditioned (or stale-preconditioned) GMRES gets this many mat-vecs before we factor.
+# GMRES gets this many mat-vecs before a factorisation is considered (when none exists).
 _FACTOR_AFTER = 30
-# Largest envelope (an upper bound on LU fill with a banded ordering) we accept: 6e7 entries,
+# Largest envelope (a bound on LU fill with a banded ordering) we accept: 6e7 entries,
 # about 0.5 GB of float64, keeps a 10^5-state problem within a few GB.
 _MAX_ENVELOPE = 6e7
+# Envelopes this small are factored at the first solve (factorising is then cheap).
+_SMALL_ENVELOPE = 5e4
+# Cost model in nanoseconds, calibrated once on a 2-core x86-64 machine (bench/engine.py
+# problems): mat-vec per non-zero, triangular solve per factor non-zero, factorisation
+# ~ c * nnz(LU)^1.5, Arnoldi per vector entry and basis vector, fixed Python overheads.
+_NS_MATVEC, _NS_SOLVE, _NS_FACTOR, _NS_ARNOLDI = 1.5, 2.0, 0.3, 4.0
+_NS_ITERATION, _NS_FACTOR_CALL = 30e3, 100e3
 
 
 class Preconditioner:
-    """Per-chain store of the last LU factorisation of ``I - g M`` and whether one may be made."""
+    """Per-chain store of the last LU factorisation of ``I - g M`` and its cost estimates."""
 
     def __init__(self) -> None:
         self.lu = None
         self.allowed: bool | None = None
+        self.small = False
+        self.stale_iterations: float | None = None  # running mean with stale factors
         self.factorisations = 0
 
     def decide(self, matrix: sp.csr_matrix) -> bool:
         """Decide once, from the sparsity pattern, whether factorising is affordable."""
         if self.allowed is None:
-            self.allowed = _envelope(matrix) <= _MAX_ENVELOPE
+            envelope = _envelope(matrix)
+            self.allowed = envelope <= _MAX_ENVELOPE
+            self.small = envelope <= _SMALL_ENVELOPE
         return self.allowed
 
     def refresh(self, matrix: sp.csr_matrix, discount: float) -> None:
@@ -47,6 +61,24 @@ class Preconditioner:
         # of the symmetric ordering.
         self.lu = spla.splu(system, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0)
         self.factorisations += 1
+
+    def fresh_is_cheaper(self, matrix: sp.csr_matrix) -> bool:
+        """Predicted: new factors + ~2 iterations beat iterating with the stale ones."""
+        if self.lu is None:
+            return self.small
+        if self.stale_iterations is None:
+            return False
+        n = matrix.shape[0]
+        lu_nnz = self.lu.L.nnz + self.lu.U.nnz
+        per_iteration = (_NS_MATVEC * matrix.nnz + _NS_SOLVE * lu_nnz
+                         + _NS_ARNOLDI * n * 10 + _NS_ITERATION)
+        factor = _NS_FACTOR * lu_nnz**1.5 + _NS_FACTOR_CALL
+        return factor < (self.stale_iterations - 2.0) * per_iteration
+
+    def record_stale(self, iterations: int) -> None:
+        """Update the running mean of iterations needed with stale factors."""
+        prev = self.stale_iterations
+        self.stale_iterations = iterations if prev is None else 0.7 * prev + 0.3 * iterations
 
 
 def _envelope(matrix: sp.csr_matrix) -> float:
@@ -86,20 +118,9 @@ def solve_discounted(
 
     target = rtol * b_norm
     x = np.zeros(n) if x0 is None else np.asarray(x0, dtype=float)
-    can_factor = precond is not None and precond.decide(matrix)
-    used = 0
-    if can_factor:
-        # Stale factorisation first (or none yet); factor afresh only if the observed rate
-        # says GMRES would need many more iterations (fast-mixing chains converge quickly
-        # unpreconditioned, and their factorisations are expensive).
-        pre = _apply(precond, transpose) if precond.lu is not None else None
-        x, res, used, res0 = gmres(matvec, rhs, x, target, pre, maxiter=_FACTOR_AFTER)
-        if res > target:
-            if not _finishes_soon(res0, res, target, used):
-                precond.refresh(matrix, discount)
-                pre = _apply(precond, transpose)
-            x, res, k, _ = gmres(matvec, rhs, x, target, pre, maxiter=maxiter)
-            used += k
+    if precond is not None and precond.decide(matrix):
+        x, res, used = _with_factors(precond, matrix, discount, matvec, rhs, x, target,
+                                     transpose, maxiter)
     else:
         x, res, used, _ = gmres(matvec, rhs, x, target, maxiter=maxiter)
     if not np.isfinite(res) or res > target:
@@ -108,6 +129,26 @@ def solve_discounted(
             f"(wanted {rtol:.1e}) after {used} mat-vecs"
         )
     return x, used
+
+
+def _with_factors(precond, matrix, discount, matvec, rhs, x, target, transpose, maxiter):
+    fresh = precond.fresh_is_cheaper(matrix)
+    if fresh:
+        precond.refresh(matrix, discount)
+    pre = _apply(precond, transpose) if precond.lu is not None else None
+    x, res, used, res0 = gmres(matvec, rhs, x, target, pre, maxiter=_FACTOR_AFTER)
+    if pre is not None and not fresh:
+        precond.record_stale(used)
+    if res > target:
+        # Slow: factor afresh unless the observed rate says GMRES is nearly done.
+        if pre is None and _finishes_soon(res0, res, target, used):
+            x, res, k, _ = gmres(matvec, rhs, x, target, maxiter=maxiter)
+        else:
+            precond.refresh(matrix, discount)
+            x, res, k, _ = gmres(matvec, rhs, x, target, _apply(precond, transpose),
+                                 maxiter=maxiter)
+        used += k
+    return x, res, used
 
 
 def _finishes_soon(res0: float, res: float, target: float, used: int) -> bool:

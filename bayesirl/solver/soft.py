@@ -21,7 +21,7 @@ from typing import NamedTuple
 import numpy as np
 
 from bayesirl.errors import SolverError
-from bayesirl.kernels import soft_max_actions
+from bayesirl.kernels import soft_max_actions, soft_newton_dense
 from bayesirl.solver.dynamics import Dynamics
 from bayesirl.solver.linear import Preconditioner, solve_discounted
 
@@ -137,6 +137,8 @@ def soft_newton(
     :mod:`bayesirl.solver.linear`).
     """
     reward_am, values = _start(dyn, reward, values0)
+    if dyn.dense is not None:
+        return _newton_dense(dyn, reward_am, discount, values, tol, max_iter)
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
     matvecs = 0
     for it in range(1, max_iter + 1):
@@ -161,3 +163,12 @@ def soft_newton(
     raise SolverError(
         f"soft Newton: span of the Bellman residual still {span:.3e} after {max_iter} steps"
     )
+
+
+def _newton_dense(dyn, reward_am, discount, values, tol, max_iter) -> SoftSolution:
+    values, q, policy, log_policy, it = soft_newton_dense(
+        dyn.dense, reward_am, float(discount), values, float(tol), int(max_iter)
+    )
+    if it < 0:
+        raise SolverError(f"soft Newton (dense): not converged after {max_iter} steps")
+    return SoftSolution(values, q, policy, log_policy, it, it)

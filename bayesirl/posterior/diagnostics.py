@@ -1,0 +1,76 @@
+"""Convergence diagnostics after every run, with the thresholds named at their source."""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import arviz as az
+import numpy as np
+
+# Vehtari, Gelman, Simpson, Carpenter & Buerkner (2021), "Rank-normalization, folding, and
+# localization: an improved R-hat": use samples only when rank-normalised split R-hat < 1.01
+# and bulk- and tail-ESS are at least 100 per chain (400 for the four chains they assume).
+RHAT_MAX = 1.01
+ESS_MIN = 400
+# Betancourt (2016), "Diagnosing suboptimal cotangent disintegrations in Hamiltonian Monte
+# Carlo": E-BFMI below 0.3 indicates the momentum resampling cannot explore the energy.
+EBFMI_MIN = 0.3
+# Betancourt (2017), "A conceptual introduction to HMC": any divergence signals a region the
+# integrator cannot resolve, which biases the estimates.
+DIVERGENCES_MAX = 0
+
+
+class Diagnostics(NamedTuple):
+    """Per-parameter R-hat and ESS, plus run-level divergences and E-BFMI."""
+
+    names: tuple[str, ...]
+    rhat: np.ndarray
+    ess_bulk: np.ndarray
+    ess_tail: np.ndarray
+    divergences: int
+    ebfmi: np.ndarray  # per chain (NaN for the random-walk sampler)
+    warnings: tuple[str, ...]
+
+    @property
+    def ok(self) -> bool:
+        """True when no threshold failed."""
+        return not self.warnings
+
+
+def _per_param(dataset, func) -> np.ndarray:
+    out = func(dataset)
+    return np.concatenate([np.atleast_1d(out[v].values).ravel() for v in dataset.data_vars])
+
+
+def compute(idata: az.InferenceData, names: tuple[str, ...]) -> Diagnostics:
+    """Diagnostics of ``idata.posterior`` (every variable, flattened in order)."""
+    post = idata.posterior
+    rhat = _per_param(post, lambda d: az.rhat(d, method="rank"))
+    bulk = _per_param(post, lambda d: az.ess(d, method="bulk"))
+    tail = _per_param(post, lambda d: az.ess(d, method="tail"))
+    stats = idata.sample_stats
+    div = int(stats["diverging"].values.sum()) if "diverging" in stats else 0
+    energy = stats["energy"].values if "energy" in stats else None
+    if energy is not None and np.all(np.isfinite(energy)):
+        ebfmi = np.asarray(az.bfmi(idata))
+    else:
+        ebfmi = np.full(post.sizes["chain"], np.nan)
+    return Diagnostics(names, rhat, bulk, tail, div, ebfmi, _warnings(names, rhat, bulk, tail,
+                                                                      div, ebfmi))
+
+
+def _warnings(names, rhat, bulk, tail, div, ebfmi) -> tuple[str, ...]:
+    out = []
+    bad = [n for n, r in zip(names, rhat, strict=True) if not r < RHAT_MAX]
+    if bad:
+        out.append(f"R-hat >= {RHAT_MAX} for {', '.join(bad)}: chains disagree; run longer")
+    low = [n for n, b, t in zip(names, bulk, tail, strict=True) if min(b, t) < ESS_MIN]
+    if low:
+        out.append(f"bulk- or tail-ESS < {ESS_MIN} for {', '.join(low)}: intervals are noisy")
+    if div > DIVERGENCES_MAX:
+        out.append(f"{div} divergent transitions: the estimates may be biased; "
+                   "try a higher target acceptance or a dense mass matrix")
+    if np.any(ebfmi < EBFMI_MIN):
+        out.append(f"E-BFMI < {EBFMI_MIN} in {int(np.sum(ebfmi < EBFMI_MIN))} chain(s): "
+                   "poor exploration of the energy")
+    return tuple(out)

@@ -1,0 +1,150 @@
+"""The log-posterior the samplers see: parameter layout, priors, pinning, rationality.
+
+Unconstrained vector ``theta`` = (free weights on their prior's scale, then ``log(beta)``
+when the rationality is unknown). When ``beta`` is sampled the data only see ``beta * w``,
+so the overall scale of ``w`` must be pinned by fixing one named weight.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
+
+
+class PosteriorModel:
+    """``log p(theta | demos)`` up to a constant, with its gradient.
+
+    Parameters
+    ----------
+    likelihood : BoltzmannLikelihood
+    prior : prior object for the weights (default ``Normal(0, 5)``).
+    rationality : None, float or LogNormal
+        None or a number: fixed (None uses ``likelihood.rationality``). A prior: sampled.
+    pin : dict {feature name: value} or None
+        Weights held fixed. Required (one weight) when the rationality is sampled.
+    """
+
+    def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
+        self.likelihood = likelihood
+        names = likelihood.mdp.feature_names
+        self.feature_names = names
+        self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior
+        self.pin = _check_pin(pin, names)
+        self.rationality_prior = rationality if hasattr(rationality, "log_density") else None
+        if self.rationality_prior is None:
+            beta = likelihood.rationality if rationality is None else rationality
+            self.fixed_rationality = _positive_beta(beta)
+        else:
+            self.fixed_rationality = None
+            if not isinstance(rationality, LogNormal):
+                raise InputError("rationality: a sampled rationality needs a LogNormal prior")
+            if not self.pin:
+                raise InputError(
+                    "rationality is sampled, so the overall scale of the weights is not "
+                    "identified (the demonstrations only see rationality * weights). Pin one "
+                    "weight, e.g. sample(..., pin={'" + names[0] + "': 1.0}), or fix the "
+                    "rationality with a number."
+                )
+        self.free = np.array([i for i, n in enumerate(names) if n not in self.pin], dtype=int)
+        if self.free.size == 0:
+            raise InputError("pin: every weight is pinned; nothing is left to sample")
+        self.pinned_values = np.array([self.pin.get(n, 0.0) for n in names])
+        self.prior.params(len(names))  # per-feature parameters must cover all F features
+        self._free_prior = _restrict(self.prior, self.free, len(names))
+
+    @property
+    def dim(self) -> int:
+        """Length of ``theta``."""
+        return self.free.size + (self.fixed_rationality is None)
+
+    def unpack(self, theta: np.ndarray) -> tuple[np.ndarray, float]:
+        """``theta`` -> (all weights, beta)."""
+        k = self.free.size
+        w = self.pinned_values.copy()
+        w[self.free] = self._free_prior.transform(theta[:k])
+        beta = self.fixed_rationality if self.fixed_rationality is not None else float(
+            np.exp(theta[k])
+        )
+        return w, beta
+
+    def logdensity_and_grad(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
+        """Log-posterior (up to a constant) and its gradient in ``theta``."""
+        k = self.free.size
+        prior = self._free_prior
+        w, beta = self.unpack(theta)
+        value = self.likelihood.evaluate(w, beta)
+        lp_w, g_w = prior.log_density(theta[:k])
+        grad = np.empty(self.dim)
+        grad[:k] = value.grad_weights[self.free] * prior.dtransform(theta[:k]) + g_w
+        total = value.loglik + lp_w
+        if self.fixed_rationality is None:
+            lp_b, g_b = self.rationality_prior.log_density(theta[k:])
+            grad[k] = value.grad_log_rationality + g_b[0]
+            total += lp_b
+        return float(total), grad
+
+    def __call__(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
+        return self.logdensity_and_grad(theta)
+
+    def spec(self) -> dict:
+        """JSON-ready description (prior, rationality, pin) for result files."""
+        return {
+            "prior": to_json(self.prior),
+            "rationality": (to_json(self.rationality_prior) if self.rationality_prior
+                            else self.fixed_rationality),
+            "pin": self.pin,
+        }
+
+    @staticmethod
+    def parse_spec(spec: dict) -> dict:
+        """Inverse of :meth:`spec`: keyword arguments for the constructor."""
+        rat = spec["rationality"]
+        return {
+            "prior": from_json(spec["prior"]),
+            "rationality": from_json(rat) if isinstance(rat, str) else float(rat),
+            "pin": dict(spec["pin"]),
+        }
+
+
+def _restrict(prior, idx: np.ndarray, n: int):
+    """The same prior family with per-feature parameters restricted to ``idx``."""
+    fields = {k: np.broadcast_to(np.asarray(v, dtype=float), (n,))[idx]
+              for k, v in prior.__dict__.items()}
+    return type(prior)(**fields)
+
+
+def _positive_beta(beta) -> float:
+    try:
+        b = float(beta)
+    except (TypeError, ValueError):
+        raise InputError(f"rationality: expected a number or a LogNormal; got {beta!r}") from None
+    if not np.isfinite(b) or b <= 0:
+        raise InputError(f"rationality: must be positive and finite; got {beta!r}")
+    return b
+
+
+def _check_pin(pin, names) -> dict:
+    if pin is None:
+        return {}
+    if not isinstance(pin, dict):
+        raise InputError(f"pin: expected a dict {{feature name: value}}; got {pin!r}")
+    out = {}
+    for name, value in pin.items():
+        if name not in names:
+            raise InputError(f"pin: unknown feature {name!r}; features are {list(names)}")
+        v = float(value)
+        if not np.isfinite(v) or v == 0.0:
+            raise InputError(
+                f"pin: {name!r} must be pinned to a finite non-zero value; got {value!r}"
+            )
+        out[str(name)] = v
+    return out
+
+
+def dumps(spec: dict) -> str:
+    """Compact JSON."""
+    return json.dumps(spec, sort_keys=True)

@@ -1,0 +1,157 @@
+"""The posterior object: draws, sampler statistics, diagnostics and the problem behind them."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import arviz as az
+import numpy as np
+
+from bayesirl.posterior import diagnostics as diag
+from bayesirl.posterior import storage
+from bayesirl.posterior.model import PosteriorModel
+
+# Names in ArviZ's sample_stats convention.
+_STAT_NAMES = {"step_size": "step_size", "tree_depth": "tree_depth", "n_steps": "n_steps",
+               "divergent": "diverging", "acceptance": "acceptance_rate", "energy": "energy",
+               "logdensity": "lp"}
+
+
+class Posterior:
+    """Posterior draws of the reward weights (and rationality), with their provenance.
+
+    Attributes
+    ----------
+    weights : array ``(chains, draws, F)``
+    rationality : array ``(chains, draws)`` when sampled, else None
+    feature_names : tuple of str
+    stats : dict of ``(chains, draws)`` arrays in ArviZ's naming (step_size, tree_depth,
+        n_steps = gradient evaluations, diverging, acceptance_rate, energy, lp)
+    wall_time, chain_times : seconds
+    seed : the run's seed (chain ``k`` used child ``k`` of ``SeedSequence(seed)``)
+    settings : sampler settings; ``adapted`` holds each chain's step size and inverse mass
+    model : the PosteriorModel (likelihood with MDP and demonstrations, prior, rationality, pin)
+    """
+
+    def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
+                 seed: int, wall_time: float, chain_times) -> None:
+        self.weights = weights
+        self.rationality = rationality
+        self.stats = stats
+        self.model = model
+        self.feature_names = tuple(model.feature_names)
+        self.settings = settings
+        self.seed = seed
+        self.wall_time = float(wall_time)
+        self.chain_times = [float(t) for t in chain_times]
+        self._diagnostics = None
+
+    # -- construction -------------------------------------------------------------------
+    @classmethod
+    def from_chains(cls, model, results, settings, seed, wall_time, chain_times) -> Posterior:
+        """Assemble from :class:`~bayesirl.sampler.ChainResult` objects (one per chain)."""
+        thetas = np.stack([r.draws for r in results])  # (C, D, dim)
+        c, d, _ = thetas.shape
+        f = len(model.feature_names)
+        weights = np.empty((c, d, f))
+        beta = np.empty((c, d))
+        for i in range(c):
+            for j in range(d):
+                weights[i, j], beta[i, j] = model.unpack(thetas[i, j])
+        sampled = model.fixed_rationality is None
+        stats = {_STAT_NAMES[k]: np.stack([r.stats[k] for r in results]) for k in _STAT_NAMES}
+        adapted = [{"step_size": float(r.step_size), "inv_mass": np.asarray(r.inv_mass).tolist(),
+                    "n_evals": int(r.n_evals)} for r in results]
+        settings = {**settings, "adapted": adapted}
+        return cls(weights, beta if sampled else None, stats, model, settings, seed,
+                   wall_time, chain_times)
+
+    # -- summaries ---------------------------------------------------------------------
+    @property
+    def n_chains(self) -> int:
+        """Number of chains."""
+        return self.weights.shape[0]
+
+    @property
+    def n_draws(self) -> int:
+        """Draws per chain."""
+        return self.weights.shape[1]
+
+    def param_names(self) -> tuple[str, ...]:
+        """Names of every sampled quantity, in ArviZ's flattened order."""
+        names = self.feature_names
+        return names + (("rationality",) if self.rationality is not None else ())
+
+    @property
+    def diagnostics(self) -> diag.Diagnostics:
+        """R-hat, ESS, divergences and E-BFMI (computed once)."""
+        if self._diagnostics is None:
+            self._diagnostics = diag.compute(self.to_arviz(), self.param_names())
+        return self._diagnostics
+
+    def warn(self, stream=None) -> None:
+        """Print any diagnostic warning."""
+        out = stream if stream is not None else sys.stderr
+        for w in self.diagnostics.warnings:
+            print(f"warning: {w}", file=out)
+
+    def summary(self, level: float = 0.9) -> str:
+        """A compact table: mean, sd, equal-tailed interval, R-hat, bulk/tail ESS."""
+        d = self.diagnostics
+        lo, hi = 50 * (1 - level), 50 * (1 + level)
+        cols = [self.weights[..., i] for i in range(self.weights.shape[-1])]
+        if self.rationality is not None:
+            cols.append(self.rationality)
+        head = (f"{'parameter':<14}{'mean':>9}{'sd':>8}{f'{lo:g}%':>9}{f'{hi:g}%':>9}"
+                f"{'R-hat':>7}{'ESS bulk':>10}{'ESS tail':>10}")
+        rows = [head]
+        for k, (name, x) in enumerate(zip(self.param_names(), cols, strict=True)):
+            q = np.percentile(x, [lo, hi])
+            rows.append(f"{name:<14}{x.mean():9.3f}{x.std(ddof=1):8.3f}{q[0]:9.3f}{q[1]:9.3f}"
+                        f"{d.rhat[k]:7.3f}{d.ess_bulk[k]:10.0f}{d.ess_tail[k]:10.0f}")
+        rows.append(f"{self.n_chains} chains x {self.n_draws} draws ({self.settings['method']}),"
+                    f" {d.divergences} divergent, {self.wall_time:.1f} s")
+        rows += [f"warning: {w}" for w in d.warnings]
+        return "\n".join(rows)
+
+    def __repr__(self) -> str:
+        return (f"Posterior(features={list(self.feature_names)}, chains={self.n_chains}, "
+                f"draws={self.n_draws})")
+
+    # -- ArviZ and files ---------------------------------------------------------------
+    def to_arviz(self) -> az.InferenceData:
+        """ArviZ ``InferenceData`` with posterior, sample_stats and the problem as constant_data."""
+        post = {"weights": self.weights}
+        dims = {"weights": ["feature"]}
+        if self.rationality is not None:
+            post["rationality"] = self.rationality
+        const, const_dims = storage.problem_arrays(self.model)
+        dims.update(const_dims)
+        meta = {"bayesirl_run": json.dumps(self._meta(), sort_keys=True)}
+        return az.from_dict(
+            posterior=post, sample_stats=self.stats, constant_data=const,
+            coords={"feature": list(self.feature_names)}, dims=dims, attrs=meta,
+        )
+
+    def _meta(self) -> dict:
+        return {"format": storage.FORMAT, "seed": self.seed, "wall_time": self.wall_time,
+                "chain_times": self.chain_times, "settings": self.settings,
+                "model": self.model.spec(), "problem": storage.problem_meta(self.model)}
+
+    def save(self, path) -> Path:
+        """Write a NetCDF file (readable by plain ``arviz.from_netcdf``), atomically."""
+        return storage.write_netcdf(self.to_arviz(), Path(path))
+
+    @classmethod
+    def load(cls, path) -> Posterior:
+        """Restore a posterior, with its MDP, demonstrations, prior and settings."""
+        idata = az.from_netcdf(str(path))
+        meta = json.loads(idata.constant_data.attrs["bayesirl_run"])
+        model = storage.rebuild_model(idata.constant_data, meta)
+        stats = {k: idata.sample_stats[k].values for k in _STAT_NAMES.values()}
+        post = idata.posterior
+        beta = post["rationality"].values if "rationality" in post else None
+        return cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
+                   meta["wall_time"], meta["chain_times"])

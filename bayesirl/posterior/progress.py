@@ -1,0 +1,43 @@
+"""One progress line per chain on a terminal; silent elsewhere."""
+
+from __future__ import annotations
+
+import sys
+import time
+
+
+class ChainProgress:
+    """Renders ``chain k: i/n draws, step size, divergences`` lines in place."""
+
+    def __init__(self, chains: int, total: int, stream=None, enabled: bool = True) -> None:
+        self.stream = stream if stream is not None else sys.stderr
+        self.enabled = enabled and getattr(self.stream, "isatty", lambda: False)()
+        self.total = total
+        self.rows = [(0, float("nan"), 0) for _ in range(chains)]
+        self._drawn = False
+        self._last = 0.0
+
+    def update(self, chain: int, done: int, step_size: float, divergences: int) -> None:
+        """Record a chain's state; redraw at most ten times a second."""
+        self.rows[chain] = (done, step_size, divergences)
+        now = time.monotonic()
+        if self.enabled and (now - self._last > 0.1 or done == self.total):
+            self._last = now
+            self._draw()
+
+    def _draw(self) -> None:
+        out = self.stream
+        if self._drawn:
+            out.write(f"\x1b[{len(self.rows)}F")  # back to the first line
+        for k, (done, eps, div) in enumerate(self.rows):
+            filled = int(30 * done / max(self.total, 1))
+            bar = "#" * filled + "-" * (30 - filled)
+            out.write(f"\x1b[2Kchain {k}: [{bar}] {done}/{self.total}  step {eps:.3g}  "
+                      f"divergent {div}\n")
+        out.flush()
+        self._drawn = True
+
+    def close(self) -> None:
+        """Final redraw."""
+        if self.enabled:
+            self._draw()

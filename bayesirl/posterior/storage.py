@@ -1,0 +1,95 @@
+"""Posterior files: the problem (MDP, demonstrations) as constant_data, written atomically."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import scipy.sparse as sp
+
+from bayesirl.errors import InputError
+from bayesirl.likelihood import BoltzmannLikelihood
+from bayesirl.model import Demonstrations, TabularMDP
+from bayesirl.posterior.model import PosteriorModel
+
+FORMAT = "bayesirl-posterior/1"
+
+
+def problem_arrays(model: PosteriorModel) -> tuple[dict, dict]:
+    """Arrays describing the MDP and the demonstrations, with their dimension names."""
+    lik = model.likelihood
+    mdp, demos = lik.mdp, lik.demos
+    p = mdp.transitions
+    states = [s for s, _ in demos.episodes]
+    actions = [a for _, a in demos.episodes]
+    arrays = {
+        "transition_indptr": np.asarray(p.indptr, dtype=np.int64),
+        "transition_indices": np.asarray(p.indices, dtype=np.int64),
+        "transition_data": np.asarray(p.data, dtype=np.float64),
+        "features": np.asarray(mdp.features),
+        "demo_states": np.concatenate(states).astype(np.int64),
+        "demo_actions": np.concatenate(actions).astype(np.int64),
+        "demo_state_counts": np.asarray([len(s) for s in states], dtype=np.int64),
+        "demo_action_counts": np.asarray([len(a) for a in actions], dtype=np.int64),
+    }
+    fdims = ["state", "feature"] if mdp.state_features else ["state", "action", "feature"]
+    dims = {
+        "transition_indptr": ["transition_row_ptr"],
+        "transition_indices": ["transition_nnz"],
+        "transition_data": ["transition_nnz"],
+        "features": fdims,
+        "demo_states": ["demo_state_pos"],
+        "demo_actions": ["demo_step"],
+        "demo_state_counts": ["episode"],
+        "demo_action_counts": ["episode"],
+    }
+    if mdp.start is not None:
+        arrays["start"] = np.asarray(mdp.start)
+        dims["start"] = ["state"]
+    return arrays, dims
+
+
+def problem_meta(model: PosteriorModel) -> dict:
+    """Scalars of the problem (JSON-ready)."""
+    lik = model.likelihood
+    mdp = lik.mdp
+    return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
+            "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
+            "tol": lik.tol, "likelihood_rationality": lik.rationality}
+
+
+def rebuild_model(const, meta: dict) -> PosteriorModel:
+    """Inverse of :func:`problem_arrays` + :func:`problem_meta`."""
+    if meta.get("format") != FORMAT:
+        raise InputError(f"posterior file: unknown format {meta.get('format')!r}; "
+                         f"expected {FORMAT!r}")
+    pm = meta["problem"]
+    n_s, n_a = pm["n_states"], pm["n_actions"]
+    p = sp.csr_matrix((const["transition_data"].values, const["transition_indices"].values,
+                       const["transition_indptr"].values), shape=(n_s * n_a, n_s))
+    start = const["start"].values if "start" in const else None
+    mdp = TabularMDP(p, const["features"].values, discount=pm["discount"],
+                     horizon=pm["horizon"], start=start, feature_names=pm["feature_names"])
+    s_cut = np.cumsum(const["demo_state_counts"].values)[:-1]
+    a_cut = np.cumsum(const["demo_action_counts"].values)[:-1]
+    demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
+                                       np.split(const["demo_actions"].values, a_cut))
+    lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"], q=pm["q"],
+                              tol=pm["tol"])
+    return PosteriorModel(lik, **PosteriorModel.parse_spec(meta["model"]))
+
+
+def write_netcdf(idata, path: Path) -> Path:
+    """``idata.to_netcdf`` into a temporary file beside ``path``, then rename."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    os.close(fd)
+    try:
+        idata.to_netcdf(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
