@@ -25,8 +25,8 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections.abc import Sequence
-from typing import NamedTuple
+from collections.abc import Callable, Sequence
+from typing import Any, NamedTuple
 
 import numpy as np
 from scipy import stats
@@ -184,7 +184,31 @@ def check_moments(
     quantiles: dict[float, np.ndarray] | None = None,
     alpha: float = DEFAULT_ALPHA,
 ) -> Check:
-    """Assert :func:`moment_check` passes at family-wise level ``alpha``."""
+    """Assert that draws match known moments within family-wise Monte-Carlo error.
+
+    Parameters
+    ----------
+    draws : numpy.ndarray
+        ``(n, dim)`` or ``(chains, n, dim)``.
+    mean : array_like
+        True means, ``(dim,)`` or a scalar.
+    cov_or_sd : array_like
+        True sds ``(dim,)`` or covariance ``(dim, dim)`` (then covariances are checked).
+    quantiles : dict, optional
+        ``{prob: true quantiles (dim,)}``.
+    alpha : float, default 1e-3
+        Family-wise false-alarm probability (Bonferroni over all checked quantities).
+
+    Returns
+    -------
+    Check
+        The comparison, for further inspection.
+
+    Raises
+    ------
+    AssertionError
+        With a per-quantity report, if any quantity is outside ``z * mcse``.
+    """
     check = moment_check(draws, mean, cov_or_sd, quantiles, alpha)
     assert not check.failed, "moments disagree with the truth:\n" + check.report()
     return check
@@ -209,14 +233,41 @@ def check_agreement(
     probs: Sequence[float] = DEFAULT_PROBS,
     alpha: float = DEFAULT_ALPHA,
 ) -> Check:
-    """Assert :func:`sample_check` passes at family-wise level ``alpha``."""
+    """Assert that two samplers agree within their combined Monte-Carlo error.
+
+    Parameters
+    ----------
+    draws_a, draws_b : numpy.ndarray
+        ``(n, dim)`` or ``(chains, n, dim)`` each; for an ensemble sampler pass the
+        walkers as chains.
+    probs : sequence of float
+        Quantile levels compared besides means and sds.
+    alpha : float, default 1e-3
+        Family-wise false-alarm probability (Bonferroni).
+
+    Returns
+    -------
+    Check
+        ``estimate`` holds sampler A's values, ``reference`` sampler B's.
+
+    Raises
+    ------
+    AssertionError
+        With a per-quantity report, if any difference exceeds ``z * sqrt(mcse_a^2 +
+        mcse_b^2)``.
+    """
     check = sample_check(draws_a, draws_b, probs, alpha)
     assert not check.failed, "samplers disagree:\n" + check.report()
     return check
 
 
-def gaussian(mean: np.ndarray, cov_or_sd: np.ndarray):
-    """Log density and gradient of a Gaussian (sds if 1-D, covariance if 2-D)."""
+def gaussian(
+    mean: np.ndarray, cov_or_sd: np.ndarray
+) -> Callable[[np.ndarray], tuple[float, np.ndarray]]:
+    """Log density (up to a constant) and gradient of a Gaussian.
+
+    ``cov_or_sd`` holds sds if 1-D, a covariance if 2-D.
+    """
     mean = np.asarray(mean, dtype=float)
     cov_or_sd = np.asarray(cov_or_sd, dtype=float)
     if cov_or_sd.ndim == 1:
@@ -231,26 +282,47 @@ def gaussian(mean: np.ndarray, cov_or_sd: np.ndarray):
     return logdensity_and_grad
 
 
-def gaussian_quantiles(mean, sd, probs: Sequence[float] = DEFAULT_PROBS) -> dict:
+def gaussian_quantiles(
+    mean: np.ndarray, sd: np.ndarray, probs: Sequence[float] = DEFAULT_PROBS
+) -> dict[float, np.ndarray]:
     """True marginal quantiles of a Gaussian with the given means and sds."""
     mean, sd = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
     return {p: mean + sd * stats.norm.ppf(p) for p in probs}
 
 
 def run_sampler(
-    logdensity_and_grad,
+    logdensity_and_grad: Callable[[np.ndarray], tuple[float, np.ndarray]],
     initial_positions: np.ndarray,
     draws: int,
     warmup: int,
     seed: int,
     chains: int = 4,
-    **kwargs,
+    **kwargs: Any,
 ) -> tuple[np.ndarray, list[ChainResult]]:
-    """Run ``chains`` independent seeded chains with :func:`run_chain`.
+    """Run independent, seeded chains with :func:`bayesirl.sampler.run_chain`.
 
-    ``initial_positions`` is ``(dim,)`` (shared) or ``(chains, dim)``. Seeds are spawned
-    from one ``SeedSequence(seed)`` so chains are independent and reproducible. Returns
-    the stacked draws ``(chains, draws, dim)`` and the per-chain results.
+    Parameters
+    ----------
+    logdensity_and_grad : callable
+        ``theta -> (log density, gradient)``.
+    initial_positions : numpy.ndarray
+        ``(dim,)`` shared by all chains, or ``(chains, dim)``.
+    draws, warmup : int
+        Per chain.
+    seed : int
+        Root seed; chain seeds are spawned from ``SeedSequence(seed)``, so chains are
+        independent and the whole run is reproducible.
+    chains : int, default 4
+        Number of chains (run one after the other).
+    **kwargs
+        Passed to ``run_chain`` (``method``, ``dense_mass``, ``target_accept``, ...).
+
+    Returns
+    -------
+    draws : numpy.ndarray
+        ``(chains, draws, dim)``, ready for :func:`check_moments`.
+    results : list of ChainResult
+        Per chain, for statistics and adapted settings.
     """
     starts = np.atleast_2d(np.asarray(initial_positions, dtype=float))
     starts = np.broadcast_to(starts, (chains, starts.shape[1]))

@@ -130,6 +130,17 @@ def _rwm_kernel(logdensity_fn: LogDensityAndGrad, dim: int) -> _Kernel:
     return _Kernel(lambda x: rwm.init(x, logdensity_fn), step, initial, 1.0, False)
 
 
+class _Counted:
+    """Wrap the log density to count its calls (the cost that matters)."""
+
+    def __init__(self, fn: Callable[[np.ndarray], Any]) -> None:
+        self.fn, self.calls = fn, 0
+
+    def __call__(self, theta: np.ndarray) -> Any:
+        self.calls += 1
+        return self.fn(theta)
+
+
 class _Recorder:
     """Preallocated per-iteration draws and statistics."""
 
@@ -210,7 +221,7 @@ def run_chain(
     Parameters
     ----------
     logdensity_and_grad : callable
-        ``theta -> (log density, gradient)``. ``-inf`` or NaN marks an invalid point
+        ``theta -> (log density, gradient)``; ``-inf`` or NaN marks an invalid point
         (a divergence for NUTS, a rejection for the random walk).
     initial_position : numpy.ndarray
         Starting point, shape ``(dim,)``, with a finite log density.
@@ -239,31 +250,24 @@ def run_chain(
         target_accept = _DEFAULT_TARGET.get(method, 0.8)
     _check_args(method, draws, warmup, target_accept)
     rng = np.random.default_rng(seed_or_rng)
-    n_evals = 0
-
-    def counted(theta: np.ndarray) -> Any:
-        nonlocal n_evals
-        n_evals += 1
-        return logdensity_and_grad(theta)
-
+    counted = _Counted(logdensity_and_grad)
     position = np.array(initial_position, dtype=float)
     dim = position.shape[0] if position.ndim == 1 else 0
     if method == "nuts":
         kernel = _nuts_kernel(counted, max_depth)
     else:
         kernel = _rwm_kernel(counted, max(dim, 1))
+    warm, kept = _Recorder(warmup, dim), _Recorder(draws, dim)
     state = kernel.init(position)
-    warm = _Recorder(warmup, dim)
     state, step_size, metric = _warmup(
         kernel, state, rng, warm, dense_mass, target_accept, callback
     )
-    kept = _Recorder(draws, dim)
     for i in range(draws):
         state, info = kernel.step(rng, state, step_size, metric)
         kept.record(i, state, info)
         if callback is not None:
             callback(warmup + i, info)
     return ChainResult(
-        kept.draws, kept.stats, float(step_size), metric, warm.draws, warm.stats, n_evals,
-        method,
+        kept.draws, kept.stats, float(step_size), metric, warm.draws, warm.stats,
+        counted.calls, method,
     )

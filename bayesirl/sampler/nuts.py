@@ -204,6 +204,29 @@ def _build(ctx: _Context, start: _Point, direction: int, depth: int) -> _Tree:
     return _join(first, second, direction, proposal)
 
 
+def _trajectory(ctx: _Context, start: _Point, max_depth: int) -> tuple[_Point, int]:
+    """Double the trajectory until it turns, diverges or reaches ``max_depth``.
+
+    Returns the sampled point and the number of completed doublings (Stan's treedepth).
+    """
+    tree = _Tree(start, start, start, 0.0, start.momentum, True)
+    depth = 0
+    while depth < max_depth:
+        direction = 1 if ctx.rng.uniform() < 0.5 else -1
+        edge = tree.right if direction > 0 else tree.left
+        subtree = _build(ctx, edge, direction, depth)
+        if not subtree.valid:
+            break
+        depth += 1
+        # Biased progressive sampling: favour the new subtree, which moves further away.
+        accept = math.exp(min(0.0, subtree.log_weight - tree.log_weight))
+        proposal = subtree.proposal if ctx.rng.uniform() < accept else tree.proposal
+        tree = _join(tree, subtree, direction, proposal)
+        if not tree.valid:
+            break
+    return tree.proposal, depth
+
+
 def step(
     rng: np.random.Generator,
     state: NUTSState,
@@ -250,22 +273,7 @@ def step(
                    max_energy_error)
     start = _Point(state.position, momentum, state.logdensity, state.grad,
                    velocity(momentum, inv_mass), energy0)
-    tree = _Tree(start, start, start, 0.0, momentum, True)
-    depth = 0
-    while depth < max_depth:
-        direction = 1 if rng.uniform() < 0.5 else -1
-        edge = tree.right if direction > 0 else tree.left
-        subtree = _build(ctx, edge, direction, depth)
-        if not subtree.valid:
-            break
-        depth += 1
-        # Biased progressive sampling: favour the new subtree, which moves further away.
-        accept = math.exp(min(0.0, subtree.log_weight - tree.log_weight))
-        proposal = subtree.proposal if rng.uniform() < accept else tree.proposal
-        tree = _join(tree, subtree, direction, proposal)
-        if not tree.valid:
-            break
-    chosen = tree.proposal
+    chosen, depth = _trajectory(ctx, start, max_depth)
     new_state = NUTSState(chosen.position, chosen.logdensity, chosen.grad)
     info = NUTSInfo(
         step_size=float(step_size),
