@@ -6,7 +6,7 @@ standard error (MCSE) from arviz's effective sample size (ESS), and the check as
 family-wise false-alarm probability ``alpha`` (Bonferroni; default ``alpha = 1e-3``).
 
 MCSE formulas (Vehtari, Gelman, Simpson, Carpenter & Buerkner 2021, Bayesian Analysis 16,
-"Rank-normalization, folding, and localization: an improved R-hat", sec. 4 and app.):
+"Rank-normalization, folding, and localization: an improved R-hat"):
 
 * mean: ``sd / sqrt(ESS_bulk)``;
 * variance: ``sd((x - xbar)^2) / sqrt(ESS((x - xbar)^2))``, then the delta method for the

@@ -1,14 +1,14 @@
 """Warmup adaptation, as small ``init`` / ``update`` / ``final`` parts.
 
 * Dual averaging of the log step size (Nesterov 2009; Hoffman & Gelman 2014, JMLR 15,
-  "The No-U-Turn Sampler", sec. 3.2.1 and Alg. 5, with their constants
+  "The No-U-Turn Sampler", sec. 3.2 and Alg. 5, with their constants
   ``gamma=0.05, t0=10, kappa=0.75`` and ``mu = log(10 * eps0)``).
 * Welford's running mean and (co)variance (Welford 1962, Technometrics 4), finalised with
   Stan's regularisation ``n/(n+5) * var + 1e-3 * 5/(n+5)`` (Stan Reference Manual,
-  "HMC algorithm parameters", windowed adaptation).
+  MCMC sampling chapter, automatic parameter tuning).
 * Stan's warmup window schedule: initial fast buffer 75, slow windows doubling from 25 with
   the last stretched to fill, terminal fast buffer 50; warmups shorter than 150 use
-  15% / 75% / 10% (Stan Reference Manual, same section).
+  15% / 75% / 10% (same source).
 * A reasonable initial step size by doubling or halving until the one-step acceptance
   crosses 1/2 (Hoffman & Gelman 2014, Alg. 4).
 """
@@ -67,7 +67,7 @@ def dual_averaging_init(step_size: float, mu: float | None = None) -> DualAverag
         Initial step size ``eps0``, positive.
     mu : float, optional
         Shrinkage target for ``log(step size)``; default ``log(10 * eps0)``, which Hoffman
-        & Gelman (2014, sec. 3.2.1) choose to favour larger steps, as they are cheaper.
+        & Gelman (2014, sec. 3.2) choose to favour larger steps, as they are cheaper.
 
     Returns
     -------
@@ -243,6 +243,14 @@ def window_schedule(
     -------
     list of Window
         Fast, slow..., fast windows; zero-length windows are omitted.
+
+    Notes
+    -----
+    A slow window is stretched to the end of the slow phase when the window after it
+    (twice as long) would not fit. Stan's ``windowed_adaptation`` does not apply this
+    test to the first slow window, so e.g. ``num_warmup=151`` leaves it a final slow
+    window of one draw; here every window is tested, giving 75 / 26 / 50 instead. For
+    ``num_warmup=1000`` both give 75 / 25, 50, 100, 200, 500 / 50.
     """
     if num_warmup < 0:
         raise InputError(f"num_warmup: must be non-negative, got {num_warmup}")
@@ -257,8 +265,6 @@ def window_schedule(
     start, size = init_buffer, base_window
     while start < slow_end:
         # Stretch this window to the end when the next (twice as long) would not fit.
-        # Stan skips this test for the first window, which can leave a final slow window
-        # of a single draw (e.g. num_warmup=151); testing every window avoids that.
         stop = slow_end if start + 3 * size > slow_end else start + size
         windows.append(Window("slow", start, stop))
         start, size = stop, 2 * size

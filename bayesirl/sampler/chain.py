@@ -1,13 +1,13 @@
 """Run one chain: windowed warmup adaptation, then sampling with the adapted settings.
 
-Warmup follows Stan's windowed adaptation (Stan Reference Manual, "HMC algorithm
-parameters"): dual averaging of the step size throughout; in the slow windows the draws
-feed a Welford (co)variance estimate that becomes the new metric at each window's end,
-after which the step size is re-initialised and dual averaging restarted. The same scheme
-tunes random-walk Metropolis: the metric is then the proposal covariance shape (the
-adaptive Metropolis of Haario et al. 2001, updated per window rather than per draw) and the
-step size is the proposal scale, tuned towards acceptance 0.234 (Roberts, Gelman & Gilks
-1997).
+Warmup follows Stan's windowed adaptation (Stan Reference Manual, MCMC sampling chapter,
+automatic parameter tuning): dual averaging of the step size throughout; in the slow
+windows the draws feed a Welford (co)variance estimate that becomes the new metric at each
+window's end, after which the step size is re-initialised and dual averaging restarted.
+The same windows tune random-walk Metropolis: the metric is then the proposal covariance
+shape (the adaptive Metropolis of Haario et al. 2001, updated per window rather than per
+draw) and the step size is the proposal scale, tuned towards acceptance 0.234 (Roberts,
+Gelman & Gilks 1997) by one dual averaging run that is not restarted (see _rwm_kernel).
 
 Everything returned is plain NumPy arrays and Python scalars, so a result pickles for
 transfer between processes.

@@ -7,14 +7,14 @@ sampling), using biased progressive sampling when a new subtree joins the trajec
 uniform progressive sampling inside subtrees, and doubling stops at the generalised
 no-U-turn criterion on ``rho`` (the summed momenta) and the end velocities ``M^{-1} p``
 (Betancourt 2017, arXiv:1701.02434, "A Conceptual Introduction to Hamiltonian Monte
-Carlo", sec. A.4-A.5). As in Stan (since 2.23), every merge also checks the criterion on
+Carlo", appendix A). As in current Stan, every merge also checks the criterion on
 the two sub-trajectories extended by the neighbouring point of the other one, which
 catches U-turns that fall between the two halves.
 
 A subtree that diverges (energy error above ``max_energy_error``, or a non-finite log
 density) or turns is discarded, and building stops; the sample is taken from the
 trajectory built before it. The adaptation statistic is the mean of
-``min(1, exp(H0 - H))`` over all new points (Hoffman & Gelman 2014, sec. 3.2.1 for
+``min(1, exp(H0 - H))`` over all new points (Hoffman & Gelman 2014, sec. 3.2 for
 NUTS, with every leapfrog point counted as in Stan).
 """
 
@@ -138,8 +138,8 @@ def _log_add_exp(a: float, b: float) -> float:
 
 
 def _is_turning(p_sharp_left: np.ndarray, p_sharp_right: np.ndarray, rho: np.ndarray) -> bool:
-    # Generalised criterion (Betancourt 2017, eq. A.4 region): keep going only while both
-    # end velocities still point along the summed momentum.
+    # Generalised criterion (Betancourt 2017, appendix A): keep going only while both end
+    # velocities still point along the summed momentum.
     return not (float(p_sharp_left @ rho) > 0.0 and float(p_sharp_right @ rho) > 0.0)
 
 

@@ -29,7 +29,8 @@ def _lengths(windows):
 
 
 def test_stan_schedule_for_1000_warmup():
-    # Stan Reference Manual, "HMC algorithm parameters": 75 + 25, 50, 100, 200, 500 + 50.
+    # Stan Reference Manual (MCMC sampling, automatic parameter tuning):
+    # 75 + 25, 50, 100, 200, 500 + 50.
     assert _lengths(window_schedule(1000)) == [
         ("fast", 75), ("slow", 25), ("slow", 50), ("slow", 100), ("slow", 200),
         ("slow", 500), ("fast", 50),
@@ -91,8 +92,9 @@ def test_dual_averaging_starts_from_ten_times_step():
 
 def test_dual_averaging_converges_at_rate_one_over_sqrt_t():
     # Noise-free acceptance curve a(eps) = 1 / (1 + eps^2) with root eps* = 0.5 at target
-    # 0.8. With h_t = gamma (mu - x_t) / sqrt(t) (Hoffman & Gelman 2014, eq. 6) the error
-    # of the averaged iterate shrinks as t^(-1/2): quadrupling t halves it. Deterministic.
+    # 0.8. The update of Hoffman & Gelman (2014, Alg. 5) gives h_t = gamma (mu - x_t) /
+    # sqrt(t), so the error of the averaged iterate shrinks as t^(-1/2): quadrupling t
+    # halves it. Deterministic.
     state = dual_averaging_init(2.0)
     errors = {}
     for t in range(1, 4001):
@@ -154,7 +156,7 @@ def _acceptance_mcse(acceptance: np.ndarray) -> float:
 def test_dual_averaging_reaches_target_acceptance_with_nuts():
     # NUTS on a 3-D standard Gaussian with a fixed unit metric, 1000 adaptation steps.
     # (1) Dual averaging drives the running mean of the acceptance statistic to the
-    # target (Hoffman & Gelman 2014, sec. 3.2.1: h_bar_t -> 0), so the mean over the last
+    # target (Hoffman & Gelman 2014, sec. 3.2: h_bar_t -> 0), so the mean over the last
     # 500 adaptation steps must be within z * MCSE of 0.8 (z: Bonferroni over 2 checks at
     # 1e-3). (2) Sampling with the averaged step size must not fall below the target:
     # because the acceptance is concave in log(eps) and the iterates keep fluctuating, the

@@ -54,6 +54,7 @@ def test_result_contract(method, dense):
 
 @pytest.mark.parametrize("method", sorted(METHOD_INFO))
 def test_same_seed_same_draws_different_seed_different_draws(method):
+    # Project rule: all randomness flows from one numpy Generator, never global state.
     def run(seed):
         return run_chain(TARGET.logdensity_and_grad, np.zeros(2), 50, 50, seed, method=method)
 

@@ -1,7 +1,7 @@
 """The harness itself: it passes exact draws, rejects wrong ones, and its MCSE is calibrated.
 
-Each negative control uses a deviation far outside the Monte-Carlo error (stated beside
-it), so that the check must fail; otherwise the harness could not catch a broken sampler.
+Each negative control (common practice: a check must be shown able to fail) uses a
+deviation far outside the Monte-Carlo error, stated beside it, so the check must fail.
 """
 
 from __future__ import annotations

@@ -36,8 +36,9 @@ def _steps_from_exact_draws(target, n, n_steps, step_size, inv_mass, seed):
     ids=["diag", "dense"],
 )
 def test_transition_leaves_target_invariant(step_size, inv_mass):
-    # A valid MCMC kernel maps exact draws to exact draws (stationarity), with no warmup
-    # or autocorrelation involved; a mildly large step makes the energy weights matter.
+    # A valid MCMC kernel maps exact draws to exact draws (the definition of an invariant
+    # kernel, e.g. Geyer 2011, Handbook of MCMC, ch. 1), with no warmup or
+    # autocorrelation involved; a mildly large step makes the energy weights matter.
     out = _steps_from_exact_draws(CORRELATED, 2000, 2, step_size, inv_mass, seed=20)
     check_moments(out, CORRELATED.mean, CORRELATED.cov_or_sd, CORRELATED.quantiles())
 
@@ -66,6 +67,8 @@ _DEFAULT_RUNS = [
 
 @pytest.mark.parametrize(("name", "dense", "chains", "draws", "warmup"), _DEFAULT_RUNS)
 def test_recovers_gaussian(name, dense, chains, draws, warmup):
+    # Known Gaussian moments and quantiles within family-wise MC error (tests/harness.py,
+    # MCSE from ESS as in Vehtari et al. 2021); a well-adapted run has no divergences.
     target = GAUSSIANS[name]
     samples, results = run_sampler(
         target.logdensity_and_grad, target.starts(chains, 1), draws, warmup, seed=2,

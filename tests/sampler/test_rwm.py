@@ -21,7 +21,8 @@ CORRELATED = GAUSSIANS["correlated-2d"]
     ids=["diag", "dense"],
 )
 def test_transition_leaves_target_invariant(scale, cov):
-    # Exact independent draws stay exact after Metropolis transitions (stationarity).
+    # Exact independent draws stay exact after Metropolis transitions (invariance of the
+    # Metropolis kernel; Metropolis et al. 1953, Hastings 1970).
     starts = CORRELATED.exact_draws(4000, seed=30)
     rng = np.random.default_rng(31)
     out = np.empty_like(starts)
@@ -36,6 +37,7 @@ def test_transition_leaves_target_invariant(scale, cov):
 @pytest.mark.parametrize("dense", [False, True])
 @pytest.mark.parametrize("name", sorted(GAUSSIANS))
 def test_recovers_gaussian(name, dense):
+    # Known Gaussian moments and quantiles within family-wise MC error (tests/harness.py).
     target = GAUSSIANS[name]
     samples, results = run_sampler(
         target.logdensity_and_grad, target.starts(2, 32), 6000, 2000, seed=33, chains=2,
