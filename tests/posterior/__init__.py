@@ -1,0 +1,1 @@
+"""Tests of the posterior layer: priors, log-posterior, sampling runs, files, diagnostics."""
