@@ -113,6 +113,9 @@ def dual_averaging_update(
     weight = 1.0 / (count + t0)
     h_bar = (1.0 - weight) * state.h_bar + weight * (target_accept - acceptance)
     log_step = state.mu - math.sqrt(count) / gamma * h_bar
+    # Only a density that accepts everything (flat) or nothing drives x this far; the
+    # clip keeps exp(x) finite instead of raising OverflowError.
+    log_step = min(max(log_step, -700.0), 700.0)
     eta = count ** (-kappa)
     log_step_avg = eta * log_step + (1.0 - eta) * state.log_step_avg
     return DualAveragingState(log_step, log_step_avg, h_bar, state.mu, count)
