@@ -11,6 +11,7 @@ import json
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.special import expit
 
 from bayesirl.errors import InputError
 
@@ -128,13 +129,12 @@ class Uniform:
     def transform(self, z: np.ndarray) -> np.ndarray:
         """``low + (high - low) * sigmoid(z)``."""
         low, high = self.params(z.shape[0])
-        return low + (high - low) / (1.0 + np.exp(-z))
+        return low + (high - low) * expit(z)  # stable where exp(-z) would overflow
 
     def dtransform(self, z: np.ndarray) -> np.ndarray:
         """``dx/dz``."""
         low, high = self.params(z.shape[0])
-        s = 1.0 / (1.0 + np.exp(-z))
-        return (high - low) * s * (1.0 - s)
+        return (high - low) * expit(z) * expit(-z)
 
     def log_density(self, z: np.ndarray) -> tuple[float, np.ndarray]:
         """Density of ``z``: the uniform's constant cancels the Jacobian's range factor."""

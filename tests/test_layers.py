@@ -22,6 +22,7 @@ LAYERS = {
     "report": 7,
     "design": 7,
     "io": 8,
+    "validation": 9,
     "bench": 9,
     "cli": 10,
 }

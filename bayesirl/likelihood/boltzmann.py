@@ -90,14 +90,24 @@ class BoltzmannLikelihood:
         self.n_evaluations += 1
         return LikelihoodValue(float(loglik), grad_w, float(w @ grad_w))
 
+    def value(self, weights, rationality: float | None = None) -> float:
+        """Log-likelihood without the gradient (skips the adjoint solve)."""
+        w = self.mdp.check_weights(weights)
+        beta = self.rationality if rationality is None else _positive(rationality)
+        loglik, _ = self._model.evaluate(
+            self.mdp, self.counts, self._cache, w, beta, gradient=False
+        )
+        self.n_evaluations += 1
+        return float(loglik)
+
     def value_and_grad(self, weights) -> tuple[float, np.ndarray]:
         """``(log_likelihood, gradient in weights)`` at the default rationality."""
         v = self.evaluate(weights)
         return v.loglik, v.grad_weights
 
     def log_likelihood(self, weights, rationality: float | None = None) -> float:
-        """Log-likelihood only (same cost as :meth:`evaluate` for the soft model)."""
-        return self.evaluate(weights, rationality).loglik
+        """Log-likelihood only; an alias of :meth:`value`."""
+        return self.value(weights, rationality)
 
 
 def _positive(beta) -> float:

@@ -36,8 +36,11 @@ def _one_hot(greedy, n_a):
     return out
 
 
-def evaluate(mdp, counts, cache, w, beta):
-    """Return ``(log L, dlogL/dw)``; updates the warm starts in ``cache``."""
+def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
+    """Return ``(log L, dlogL/dw)``; updates the warm starts in ``cache``.
+
+    The gradient costs little beside policy iteration here, so it is always computed.
+    """
     if mdp.horizon is not None:
         return _evaluate_finite(mdp, counts, w, beta)
     g = mdp.discount

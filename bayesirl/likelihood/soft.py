@@ -41,12 +41,14 @@ def new_cache(mdp, counts, tol: float = DEFAULT_TOL) -> dict:
     }
 
 
-def evaluate(mdp, counts, cache, w, beta):
-    """Return ``(log L, dlogL/dw)``; updates the warm starts in ``cache``."""
+def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
+    """Return ``(log L, dlogL/dw)`` (gradient None unless asked); updates ``cache``."""
     reward = beta * mdp.reward(w)
     if mdp.horizon is not None:
         sol = soft_backward(mdp.dynamics, reward, mdp.discount, mdp.horizon)
         loglik = float(np.sum(counts.sa * sol.log_policy.reshape(mdp.horizon, -1)))
+        if not gradient:
+            return loglik, None
         m = forward_adjoint(mdp.dynamics, sol.policy, mdp.discount, cache["rho"])
         grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)
         return loglik, beta * grad
@@ -56,6 +58,8 @@ def evaluate(mdp, counts, cache, w, beta):
     )
     cache["values"] = sol.values
     loglik = float(np.sum(counts.sa.reshape(mdp.n_states, -1) * sol.log_policy))
+    if not gradient:
+        return loglik, None
     if mdp.dynamics.dense is not None:
         m = adjoint_dense(mdp.dynamics.dense, sol.policy_by_action, mdp.discount, cache["rho"])
         grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)

@@ -11,7 +11,7 @@ import json
 
 import numpy as np
 
-from bayesirl.errors import InputError
+from bayesirl.errors import InputError, SolverError
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
 
@@ -55,6 +55,7 @@ class PosteriorModel:
         self.pinned_values = np.array([self.pin.get(n, 0.0) for n in names])
         self.prior.params(len(names))  # per-feature parameters must cover all F features
         self._free_prior = _restrict(self.prior, self.free, len(names))
+        self.solver_failures = 0
 
     @property
     def dim(self) -> int:
@@ -72,11 +73,19 @@ class PosteriorModel:
         return w, beta
 
     def logdensity_and_grad(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
-        """Log-posterior (up to a constant) and its gradient in ``theta``."""
+        """Log-posterior (up to a constant) and its gradient in ``theta``.
+
+        A point where the soft Bellman solve fails (extreme weights) gets ``-inf``, which
+        the samplers treat as a divergence or a rejection; ``solver_failures`` counts them.
+        """
         k = self.free.size
         prior = self._free_prior
         w, beta = self.unpack(theta)
-        value = self.likelihood.evaluate(w, beta)
+        try:
+            value = self.likelihood.evaluate(w, beta)
+        except SolverError:
+            self.solver_failures += 1
+            return -np.inf, np.full(self.dim, np.nan)
         lp_w, g_w = prior.log_density(theta[:k])
         grad = np.empty(self.dim)
         grad[:k] = value.grad_weights[self.free] * prior.dtransform(theta[:k]) + g_w
@@ -89,6 +98,19 @@ class PosteriorModel:
 
     def __call__(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
         return self.logdensity_and_grad(theta)
+
+    def logdensity(self, theta: np.ndarray) -> float:
+        """Log-posterior without the gradient (for gradient-free samplers)."""
+        k = self.free.size
+        w, beta = self.unpack(theta)
+        try:
+            total = self.likelihood.value(w, beta) + self._free_prior.log_density(theta[:k])[0]
+        except SolverError:
+            self.solver_failures += 1
+            return -np.inf
+        if self.fixed_rationality is None:
+            total += self.rationality_prior.log_density(theta[k:])[0]
+        return float(total)
 
     def spec(self) -> dict:
         """JSON-ready description (prior, rationality, pin) for result files."""
@@ -136,7 +158,10 @@ def _check_pin(pin, names) -> dict:
     for name, value in pin.items():
         if name not in names:
             raise InputError(f"pin: unknown feature {name!r}; features are {list(names)}")
-        v = float(value)
+        try:
+            v = float(value)
+        except (TypeError, ValueError):
+            v = float("nan")
         if not np.isfinite(v) or v == 0.0:
             raise InputError(
                 f"pin: {name!r} must be pinned to a finite non-zero value; got {value!r}"

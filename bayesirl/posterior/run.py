@@ -47,8 +47,9 @@ def _run_one(blob: bytes, chain: int, seed: np.random.SeedSequence, settings: di
             sink(chain, i + 1, float(getattr(info, "step_size", np.nan)), divergent)
 
     t0 = time.perf_counter()
+    density = model.logdensity if settings["method"] == "random-walk" else model
     result = run_chain(
-        model, theta0, settings["draws"], settings["warmup"], chain_seed,
+        density, theta0, settings["draws"], settings["warmup"], chain_seed,
         method=settings["method"], dense_mass=settings["dense_mass"],
         target_accept=settings["target_accept"], max_depth=settings["max_depth"],
         callback=callback,
