@@ -42,9 +42,12 @@ def two_feature_likelihood() -> bi.BoltzmannLikelihood:
 
 @cache
 def three_feature_likelihood() -> bi.BoltzmannLikelihood:
-    """S = 6, A = 3, F = 3, discount 0.8; 8 episodes x 10 steps from w = (0.8, -0.5, 0.3)."""
+    """S = 6, A = 3, F = 3, discount 0.8; 4 episodes x 8 steps from w = (0.8, -0.5, 0.3).
+
+    32 steps: with x pinned and beta sampled the posterior of beta is visibly skewed.
+    """
     mdp = small_mdp(2, 3)
-    demos = bi.simulate(mdp, np.array([0.8, -0.5, 0.3]), episodes=8, length=10, seed=3)
+    demos = bi.simulate(mdp, np.array([0.8, -0.5, 0.3]), episodes=4, length=8, seed=3)
     return bi.BoltzmannLikelihood(mdp, demos)
 
 
