@@ -10,7 +10,15 @@ from pathlib import Path
 def _bench(args: argparse.Namespace) -> int:
     from bayesirl.bench import run_all
 
-    md, js = run_all(Path(args.out), quick=args.quick)
+    only = tuple(x.strip() for x in args.only.split(",")) if args.only else None
+    from bayesirl.bench import SUITES
+
+    bad = [x for x in (only or ()) if x not in SUITES]
+    if bad:
+        print(f"bayesirl bench: unknown suite(s) {bad}; choose from {list(SUITES)}",
+              file=sys.stderr)
+        return 2
+    md, js = run_all(Path(args.out), quick=args.quick, only=only or SUITES)
     print(f"wrote {md} and {js}")
     return 0
 
@@ -29,7 +37,10 @@ def build_parser() -> argparse.ArgumentParser:
         "Example: bayesirl bench --quick --out /tmp/bench",
     )
     bench.add_argument("--out", default="reports", help="folder for the report (default: reports)")
-    bench.add_argument("--quick", action="store_true", help="skip the 10^5-state problems")
+    bench.add_argument("--quick", action="store_true",
+                       help="small sizes only (a smoke run; the committed report is a full run)")
+    bench.add_argument("--only", default="",
+                       help="comma-separated suites to run: engine, sampler (default: all)")
     bench.set_defaults(func=_bench)
     return parser
 

@@ -23,6 +23,7 @@ LAYERS = {
     "design": 7,
     "io": 8,
     "validation": 9,
+    "scenarios": 9,
     "bench": 9,
     "cli": 10,
 }

@@ -4,12 +4,18 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from bayesirl.bench import engine, report
+from bayesirl.bench import engine, report, sampler
+
+SUITES = ("engine", "sampler")
 
 
-def run_all(folder: Path, quick: bool = False, log=print) -> tuple[Path, Path]:
-    """Run every suite and write the report files into ``folder``."""
+def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
+    """Run the chosen suites and write the report files into ``folder``."""
     results = {"machine": report.machine(), "quick": quick}
-    log("engine: value_and_grad")
-    results["engine"] = engine.run(quick=quick, log=log)
+    if "engine" in only:
+        log("engine: value_and_grad")
+        results["engine"] = engine.run(quick=quick, log=log)
+    if "sampler" in only:
+        log("sampler: ESS per second")
+        results["sampler"] = sampler.run(quick=quick, log=log)
     return report.write(results, folder)

@@ -84,6 +84,46 @@ def _engine_targets(engine: dict) -> list[str]:
     return ["### Targets (S = 10^4)", "", *rows, ""]
 
 
+def _sampler_md(sampler: dict) -> list[str]:
+    lines = [
+        "## Sampler: bulk-ESS per second (posterior over 8 weights)",
+        "",
+        "Random sparse MDP, A = 4, discount 0.95, 50 demonstrations of length 50, prior",
+        "Normal(0, 5), 4 chains. ESS is the minimum over weights of arviz's bulk-ESS; seconds",
+        "are sampling time after warmup. The random walk runs four times as many iterations.",
+        "emcee drives the plain cold-start numpy density (`bench/sampler.py` explains how its",
+        "ESS and cost are measured).",
+        "",
+        "| states | sampler | draws/chain | min bulk-ESS | ESS/s | vs emcee | evaluations/ESS "
+        "| max R-hat | divergent |",
+        "|---|---|---|---|---|---|---|---|---|",
+    ]
+    targets = []
+    for case in sampler["cases"]:
+        for r in case["rows"]:
+            draws = (case["draws"] * (4 if r["method"] == "random-walk" else 1)
+                     if not r["method"].startswith("emcee") else "-")
+            lines.append(
+                f"| {case['states']} | {r['method']} | {draws} | {r['min_bulk_ess']:.0f} | "
+                f"{r['ess_per_s']:.3g} | {r['vs_emcee']:.1f}x | {r['evals_per_ess']:.1f} | "
+                f"{r['max_rhat']:.3f} | {r['divergences']} |"
+            )
+            if r["method"] == "nuts":
+                big = case["states"] == 10**4
+                if big:
+                    targets.append(("NUTS >= 30x emcee ESS/s", case["states"],
+                                    f"{r['vs_emcee']:.1f}x", r["vs_emcee"] >= 30))
+                targets.append(("NUTS <= 15 gradient evaluations per bulk-ESS",
+                                case["states"], f"{r['evals_per_ess']:.1f}",
+                                r["evals_per_ess"] <= 15))
+            if not r["method"].startswith("emcee"):
+                targets.append((f"R-hat <= 1.01 ({r['method']})", case["states"],
+                                f"{r['max_rhat']:.3f}", r["max_rhat"] <= 1.01))
+    lines += ["", "### Targets", "", "| target | states | measured | met |", "|---|---|---|---|"]
+    lines += [f"| {t} | {n} | {m} | {'yes' if ok else 'no'} |" for t, n, m, ok in targets]
+    return lines + [""]
+
+
 def render(results: dict) -> str:
     """Markdown for every suite present in ``results``."""
     m = results["machine"]
@@ -98,6 +138,8 @@ def render(results: dict) -> str:
     ]
     if "engine" in results:
         lines += _engine_md(results["engine"])
+    if "sampler" in results:
+        lines += _sampler_md(results["sampler"])
     return "\n".join(lines) + "\n"
 
 
