@@ -4,7 +4,7 @@ numpy's float64 ``exp`` is scalar on AVX2 machines (its SIMD version needs AVX-5
 numba loop calling ``np.exp`` is no faster. :func:`exp_into` uses only arithmetic that LLVM
 vectorises: Cody-Waite range reduction ``x = k ln2 + r``, ``|r| <= ln2/2``, a degree-13
 Taylor polynomial (truncation below 2e-16 relative), and ``2**k`` built in the exponent bits.
-Accuracy is about 1.5 ulp on ``[-700, 700]``; inputs below -700 give 0.
+Accuracy is about 1.5 ulp on ``[-700, 709]``; inputs below -700 give 0, above 709 are clamped.
 """
 
 from __future__ import annotations
@@ -18,6 +18,7 @@ _LN2_LO = 1.9082149292705877e-10
 _MAGIC = 6755399441055744.0  # 1.5 * 2^52: adding it rounds to an integer held in the low bits
 _MAGIC_BITS = 0x4338000000000000
 _LOW = -700.0
+_HIGH = 709.0  # 2^k must stay a normal number: k <= 1023
 
 
 @njit(cache=True, fastmath={"contract"})
@@ -25,7 +26,7 @@ def exp_into(x, out, work):  # pragma: no cover - compiled
     """``out[:] = exp(x)`` for 1-D float64 arrays; ``work`` is scratch of the same size."""
     n = x.shape[0]
     for i in range(n):
-        xi = min(max(x[i], _LOW), 700.0)
+        xi = min(max(x[i], _LOW), _HIGH)
         t = xi * _LOG2E + _MAGIC
         k = t - _MAGIC
         r = (xi - k * _LN2_HI) - k * _LN2_LO
@@ -51,13 +52,13 @@ def exp_into(x, out, work):  # pragma: no cover - compiled
     scale = bits.view(np.float64)
     for i in range(n):
         v = out[i] * scale[i]
-        out[i] = v if x[i] > _LOW else 0.0
+        out[i] = v if x[i] >= _LOW else 0.0
     return out
 
 
 def exp_into_ref(x, out, work):
     """Reference for :func:`exp_into` (numpy), with the same cut-off below -700."""
-    out[:] = np.where(x > _LOW, np.exp(np.maximum(x, _LOW)), 0.0)
+    out[:] = np.where(x >= _LOW, np.exp(np.clip(x, _LOW, _HIGH)), 0.0)
     return out
 
 

@@ -132,10 +132,12 @@ def sample(
     else:
         results = _run_parallel(blob, seeds, settings, n_proc, bar)
     bar.close()
-    return Posterior.from_chains(
+    posterior = Posterior.from_chains(
         model, [r for r, _ in results], settings, seed=int(seed),
         wall_time=time.perf_counter() - t0, chain_times=[t for _, t in results],
     )
+    posterior.warn()  # every run is checked; failures are printed, never silent
+    return posterior
 
 
 def _run_parallel(blob, seeds, settings, n_proc, bar):
