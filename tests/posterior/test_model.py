@@ -171,11 +171,19 @@ def test_prior_of_the_wrong_length_is_refused():
         PosteriorModel(_likelihood(), prior=bi.Normal(np.zeros(2), 1.0))
 
 
-@pytest.mark.xfail(strict=True, raises=ValueError, reason=(
-    "BUG: a non-numeric pin value escapes as a bare ValueError from float() ('could not "
-    "convert string to float') instead of an InputError naming the pin (DEVELOPERS.md, "
-    "Errors); bayesirl/posterior/model.py _check_pin calls float(value) unguarded"))
-def test_non_numeric_pin_value_is_an_input_error():
-    # Minimal reproduction: PosteriorModel(lik, pin={"x": "one"}).
-    with pytest.raises(InputError, match="pin"):
-        PosteriorModel(_likelihood(), pin={"x": "one"})
+@pytest.mark.parametrize("value", ["one", None, float("nan"), 0.0])
+def test_bad_pin_values_are_input_errors_naming_the_pin(value):
+    # Regression for "one" and None (a bare ValueError / TypeError from float() before
+    # 19a1b04). Zero is refused too: it cannot set the scale when beta is sampled.
+    with pytest.raises(InputError, match="pin: 'x'"):
+        PosteriorModel(_likelihood(), pin={"x": value})
+
+
+@pytest.mark.parametrize("case", CASES)
+def test_value_only_logdensity_equals_logdensity_and_grad(case):
+    # The random-walk sampler uses PosteriorModel.logdensity (no adjoint solve); it must be
+    # the same function as the one NUTS sees, up to the solver noise of the two paths.
+    kwargs, theta = CASES[case]
+    model = PosteriorModel(_likelihood(), **kwargs)
+    for t in (theta, theta - 0.35):
+        assert model.logdensity(t) == pytest.approx(model(t)[0], abs=2 * LOGLIK_NOISE)

@@ -212,16 +212,13 @@ def test_from_json_refuses_an_unknown_kind():
         from_json('{"kind": "cauchy", "loc": 0, "scale": 1}')
 
 
-@pytest.mark.xfail(strict=True, raises=RuntimeWarning, reason=(
-    "BUG: Uniform.transform/dtransform compute np.exp(-z), which overflows (RuntimeWarning, an "
-    "error under this project's pytest filter) for z < -709 although the result, low, is "
-    "representable; 1 / (1 + exp(-z)) should be scipy.special.expit(z) or a stable sigmoid"))
 def test_uniform_transform_is_warning_free_far_in_the_tails():
-    # Minimal reproduction: python -W error -c "import numpy as np, bayesirl as bi;
-    # bi.Uniform(-1.0, 1.0).transform(np.array([-800.0]))" raises RuntimeWarning (overflow).
+    # Regression (found while writing these tests, fixed in 19a1b04): 1 / (1 + exp(-z))
+    # overflowed with a RuntimeWarning for z < -709 although the result, low, is exact.
     prior = bi.Uniform(-1.0, 1.0)
-    z = np.array([-800.0])
     with warnings.catch_warnings():
         warnings.simplefilter("error", RuntimeWarning)
-        assert prior.transform(z)[0] == -1.0
-        assert prior.dtransform(z)[0] == 0.0
+        for z, x in ((-800.0, -1.0), (800.0, 1.0)):
+            assert prior.transform(np.array([z]))[0] == x
+            assert prior.dtransform(np.array([z]))[0] == 0.0
+            assert np.isfinite(prior.log_density(np.array([z]))[0])
