@@ -36,6 +36,9 @@ class TabularMDP:
         Initial-state distribution (used by simulation and by policy-value summaries).
     feature_names : sequence of str or None
         Defaults to ``f0, f1, ...``.
+    grid_shape : (rows, cols) or None
+        For maps in reports: state ``s < rows * cols`` is the cell ``divmod(s, cols)``;
+        further states (e.g. an added absorbing state) are off the map.
     """
 
     def __init__(
@@ -46,6 +49,7 @@ class TabularMDP:
         horizon: int | None = None,
         start=None,
         feature_names=None,
+        grid_shape=None,
     ) -> None:
         matrix, n_s, n_a = validate.transition_matrix(transitions)
         self.transitions: sp.csr_matrix = matrix
@@ -56,6 +60,7 @@ class TabularMDP:
         self.discount, self.horizon = validate.horizon_and_discount(discount, horizon)
         self.start = None if start is None else validate.distribution(start, n_s, "start")
         self.feature_names = validate.names(feature_names, self.n_features)
+        self.grid_shape = validate.grid_shape(grid_shape, n_s)
         self.dynamics = Dynamics.from_csr(matrix, n_a)
         # Validated arrays are frozen: a model is immutable once checked.
         for arr in (matrix.data, matrix.indices, matrix.indptr, self.features, self.start):

@@ -134,3 +134,18 @@ def names(feature_names, n_f: int) -> tuple[str, ...]:
             raise InputError(f"feature_names: {n!r} appears more than once")
         seen.add(n)
     return out
+
+
+def grid_shape(shape, n_s: int) -> tuple[int, int] | None:
+    """Check an optional ``(rows, cols)`` map shape covering at most ``n_s`` states."""
+    if shape is None:
+        return None
+    try:
+        rows, cols = (int(x) for x in shape)
+    except (TypeError, ValueError):
+        raise InputError(f"grid_shape: expected (rows, cols); got {shape!r}") from None
+    if rows <= 0 or cols <= 0 or rows * cols > n_s:
+        raise InputError(
+            f"grid_shape: {rows} x {cols} cells must be positive and fit in {n_s} states"
+        )
+    return rows, cols

@@ -57,7 +57,8 @@ def problem_meta(model: PosteriorModel) -> dict:
     mdp = lik.mdp
     return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
             "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
-            "tol": lik.tol, "likelihood_rationality": lik.rationality}
+            "tol": lik.tol, "likelihood_rationality": lik.rationality,
+            "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
 
 
 def rebuild_model(const, meta: dict) -> PosteriorModel:
@@ -71,7 +72,8 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
                        const["transition_indptr"].values), shape=(n_s * n_a, n_s))
     start = const["start"].values if "start" in const else None
     mdp = TabularMDP(p, const["features"].values, discount=pm["discount"],
-                     horizon=pm["horizon"], start=start, feature_names=pm["feature_names"])
+                     horizon=pm["horizon"], start=start, feature_names=pm["feature_names"],
+                     grid_shape=pm.get("grid_shape"))
     s_cut = np.cumsum(const["demo_state_counts"].values)[:-1]
     a_cut = np.cumsum(const["demo_action_counts"].values)[:-1]
     demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),

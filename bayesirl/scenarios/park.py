@@ -41,7 +41,9 @@ def park_mdp(discount: float = 0.9) -> TabularMDP:
             for b, (dr, dc) in enumerate(MOVES):
                 rr, cc = min(max(r + dr, 0), rows - 1), min(max(c + dc, 0), cols - 1)
                 p[s * 4 + a, rr * cols + cc] += (1 - SLIP) if a == b else SLIP / 3
-    return TabularMDP(p.tocsr(), phi, discount=discount, feature_names=FEATURES)
+    return TabularMDP(
+        p.tocsr(), phi, discount=discount, feature_names=FEATURES, grid_shape=(rows, cols)
+    )
 
 
 
