@@ -77,34 +77,38 @@ def _posterior(case: str) -> bi.Posterior:
 FRESH_READER = """
 import json, sys
 import arviz
-idata = arviz.from_netcdf(sys.argv[1])
-post = idata.posterior
-print(json.dumps({
-    "modules": sorted(m for m in sys.modules if m.startswith("bayesirl")),
-    "groups": list(idata.groups()),
-    "vars": list(post.data_vars),
-    "dims": list(post["weights"].dims),
-    "features": [str(f) for f in post["weights"].coords["feature"].values],
-    "weights": post["weights"].values.tolist(),
-    "stats": sorted(idata.sample_stats.data_vars),
-}))
+out = {}
+for path in sys.argv[1:]:
+    idata = arviz.from_netcdf(path)
+    post = idata.posterior
+    out[path] = {
+        "groups": list(idata.groups()),
+        "vars": list(post.data_vars),
+        "dims": list(post["weights"].dims),
+        "features": [str(f) for f in post["weights"].coords["feature"].values],
+        "weights": post["weights"].values.tolist(),
+        "stats": sorted(idata.sample_stats.data_vars),
+    }
+out["modules"] = sorted(m for m in sys.modules if m.startswith("bayesirl"))
+print(json.dumps(out))
 """
 
 
-@pytest.mark.parametrize("case", CASES)
-def test_plain_arviz_in_a_fresh_interpreter_reads_the_file(case, tmp_path):
-    post = _posterior(case)
-    path = post.save(tmp_path / "run.nc")
-    out = subprocess.run([sys.executable, "-c", FRESH_READER, str(path)], capture_output=True,
-                         text=True, timeout=120, check=True)
-    seen = json.loads(out.stdout)
-    assert seen["modules"] == []  # the reader never touched bayesirl
-    assert {"posterior", "sample_stats", "constant_data"} <= set(seen["groups"])
-    assert seen["dims"] == ["chain", "draw", "feature"]
-    assert seen["features"] == list(post.feature_names)
-    assert np.array_equal(np.array(seen["weights"]), post.weights)  # JSON floats round-trip
-    assert ("rationality" in seen["vars"]) == (post.rationality is not None)
-    assert {"diverging", "energy", "lp", "step_size", "tree_depth"} <= set(seen["stats"])
+def test_plain_arviz_in_a_fresh_interpreter_reads_the_files(tmp_path):
+    # One subprocess for all cases (importing arviz costs seconds).
+    paths = {case: str(_posterior(case).save(tmp_path / f"{case}.nc")) for case in CASES}
+    out = subprocess.run([sys.executable, "-c", FRESH_READER, *paths.values()],
+                         capture_output=True, text=True, timeout=300, check=True)
+    seen_all = json.loads(out.stdout)
+    assert seen_all["modules"] == []  # the reader never touched bayesirl
+    for case, path in paths.items():
+        post, seen = _posterior(case), seen_all[path]
+        assert {"posterior", "sample_stats", "constant_data"} <= set(seen["groups"])
+        assert seen["dims"] == ["chain", "draw", "feature"]
+        assert seen["features"] == list(post.feature_names)
+        assert np.array_equal(np.array(seen["weights"]), post.weights)  # JSON floats exact
+        assert ("rationality" in seen["vars"]) == (post.rationality is not None)
+        assert {"diverging", "energy", "lp", "step_size", "tree_depth"} <= set(seen["stats"])
 
 
 def _same_prior(a, b) -> bool:
