@@ -42,12 +42,20 @@ def _per_param(dataset, func) -> np.ndarray:
     return np.concatenate([np.atleast_1d(out[v].values).ravel() for v in dataset.data_vars])
 
 
-def compute(idata: az.InferenceData, names: tuple[str, ...]) -> Diagnostics:
-    """Diagnostics of ``idata.posterior`` (every variable, flattened in order)."""
+def compute(idata: az.InferenceData, names: tuple[str, ...], fixed=()) -> Diagnostics:
+    """Diagnostics of ``idata.posterior`` (every variable, flattened in order).
+
+    Names in ``fixed`` (pinned weights, constant by construction) get NaN R-hat and ESS and
+    are exempt from the warnings.
+    """
     post = idata.posterior
-    rhat = _per_param(post, lambda d: az.rhat(d, method="rank"))
-    bulk = _per_param(post, lambda d: az.ess(d, method="bulk"))
-    tail = _per_param(post, lambda d: az.ess(d, method="tail"))
+    with np.errstate(invalid="ignore", divide="ignore"):  # constant pinned draws
+        rhat = _per_param(post, lambda d: az.rhat(d, method="rank"))
+        bulk = _per_param(post, lambda d: az.ess(d, method="bulk"))
+        tail = _per_param(post, lambda d: az.ess(d, method="tail"))
+    for k, name in enumerate(names):
+        if name in fixed:
+            rhat[k] = bulk[k] = tail[k] = np.nan
     stats = idata.sample_stats
     div = int(stats["diverging"].values.sum()) if "diverging" in stats else 0
     energy = stats["energy"].values if "energy" in stats else None
@@ -55,16 +63,17 @@ def compute(idata: az.InferenceData, names: tuple[str, ...]) -> Diagnostics:
         ebfmi = np.asarray(az.bfmi(idata))
     else:
         ebfmi = np.full(post.sizes["chain"], np.nan)
-    return Diagnostics(names, rhat, bulk, tail, div, ebfmi, _warnings(names, rhat, bulk, tail,
-                                                                      div, ebfmi))
+    warn = _warnings(names, rhat, bulk, tail, div, ebfmi, set(fixed))
+    return Diagnostics(names, rhat, bulk, tail, div, ebfmi, warn)
 
 
-def _warnings(names, rhat, bulk, tail, div, ebfmi) -> tuple[str, ...]:
+def _warnings(names, rhat, bulk, tail, div, ebfmi, fixed=frozenset()) -> tuple[str, ...]:
     out = []
-    bad = [n for n, r in zip(names, rhat, strict=True) if not r < RHAT_MAX]
+    bad = [n for n, r in zip(names, rhat, strict=True) if n not in fixed and not r < RHAT_MAX]
     if bad:
         out.append(f"R-hat >= {RHAT_MAX} for {', '.join(bad)}: chains disagree; run longer")
-    low = [n for n, b, t in zip(names, bulk, tail, strict=True) if min(b, t) < ESS_MIN]
+    low = [n for n, b, t in zip(names, bulk, tail, strict=True)
+           if n not in fixed and not min(b, t) >= ESS_MIN]
     if low:
         out.append(f"bulk- or tail-ESS < {ESS_MIN} for {', '.join(low)}: intervals are noisy")
     if div > DIVERGENCES_MAX:

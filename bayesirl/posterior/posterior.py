@@ -88,7 +88,8 @@ class Posterior:
     def diagnostics(self) -> diag.Diagnostics:
         """R-hat, ESS, divergences and E-BFMI (computed once)."""
         if self._diagnostics is None:
-            self._diagnostics = diag.compute(self.to_arviz(), self.param_names())
+            self._diagnostics = diag.compute(self.to_arviz(), self.param_names(),
+                                             fixed=tuple(self.model.pin))
         return self._diagnostics
 
     def warn(self, stream=None) -> None:

@@ -154,12 +154,6 @@ def test_warning_thresholds_at_their_boundaries(rhat, ess, div, ebfmi, expected)
         assert key in msg
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "BUG: a pinned weight is constant, so its R-hat is NaN (arviz also emits 'invalid value "
-    "encountered in scalar divide'), and diagnostics._warnings treats NaN as failing: every "
-    "run with a pin warns 'R-hat >= 1.01 for x: chains disagree; run longer' about the "
-    "pinned weight x although nothing is wrong. Pinned weights should be left out of (or "
-    "exempt from) the R-hat/ESS checks."))
 def test_pinned_weight_does_not_trigger_warnings():
     # Minimal reproduction: bi.sample(lik, rationality=bi.LogNormal(0, 0.5), pin={"x": 1.0})
     # on any problem prints that warning; here a healthy 4 x 1000 run (ESS > 1500 for every
