@@ -1,0 +1,70 @@
+"""Rank histograms with the binomial band of Talts et al. (2018), written as PNG files.
+
+Matplotlib's object API with the Agg canvas: no pyplot, no global backend switch.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+
+from bayesirl.validation.ranks import BAND_LEVEL, binomial_band
+from bayesirl.validation.runner import SBCResult
+
+
+def rank_figure(result: SBCResult, bins: int | None = None, title: str = "") -> Figure:
+    """One histogram of binned ranks per parameter, with the per-bin binomial band.
+
+    Parameters
+    ----------
+    result : SBCResult
+    bins : int, optional
+        Default :meth:`SBCResult.bins`.
+    title : str
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    b = result.bins() if bins is None else int(bins)
+    tests = result.tests(b)
+    n_rep = len(result.replications)
+    lo, hi = binomial_band(n_rep, b, BAND_LEVEL)
+    fig = Figure(figsize=(3.2 * len(tests), 3.0), dpi=100, layout="constrained")
+    FigureCanvasAgg(fig)
+    axes = np.atleast_1d(fig.subplots(1, len(tests), sharey=True))
+    edges = np.arange(b + 1)
+    for ax, test in zip(axes, tests, strict=True):
+        ax.fill_between(edges, lo, hi, color="0.85", step=None,
+                        label=f"{BAND_LEVEL:.0%} binomial band")
+        ax.axhline(test.expected, color="0.5", lw=0.8)
+        ax.bar(edges[:-1] + 0.5, test.counts, width=1.0, color="#4c72b0", edgecolor="white")
+        ax.set_xlim(0, b)
+        verdict = "pass" if test.passed else "FAIL"
+        ax.set_title(f"{test.name}: p = {test.p_value:.3f} ({verdict})", fontsize=9)
+        ax.set_xlabel(f"rank bin (L = {result.settings.n_draws}, {b} bins)", fontsize=8)
+    axes[0].set_ylabel(f"replications (of {n_rep})", fontsize=8)
+    axes[0].legend(fontsize=7, loc="lower left")
+    if title:
+        fig.suptitle(title, fontsize=10)
+    return fig
+
+
+def save_png(fig: Figure, path: Path) -> Path:
+    """Write ``fig`` to a temporary PNG beside ``path``, then rename it over ``path``."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=".png")
+    os.close(fd)
+    try:
+        fig.savefig(tmp, format="png")
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
