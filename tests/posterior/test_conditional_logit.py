@@ -107,11 +107,10 @@ def _run(n_features, case, draws, warmup, seed):
     assert np.all(np.abs(sd - bse) <= 0.1 * bse), (sd, bse)
 
     # 2. Exact posterior moments by quadrature. Its own error, bounded by the change from
-    # m - 4 to m nodes (the error falls fast with m), must be < 1e-5 sd, i.e. < 1e-3 of the
+    # 8 to 12 nodes per axis (the error falls fast with m), must be < 1e-5 sd, i.e. < 1e-3 of the
     # MCSE (~ sd / 50 here), so it is negligible in check_moments.
-    nodes = 12 if n_features == 2 else 10
-    q_mean, q_sd = exact_moments(logit, fit, nodes)
-    c_mean, c_sd = exact_moments(logit, fit, nodes - 4)
+    q_mean, q_sd = exact_moments(logit, fit, 12)
+    c_mean, c_sd = exact_moments(logit, fit, 8)
     assert np.all(np.abs(q_mean - c_mean) < 1e-5 * bse)
     assert np.all(np.abs(q_sd - c_sd) < 1e-5 * bse)
     check = check_moments(weights, q_mean, q_sd)
