@@ -155,10 +155,20 @@ def test_warning_thresholds_at_their_boundaries(rhat, ess, div, ebfmi, expected)
 
 
 def test_pinned_weight_does_not_trigger_warnings():
-    # Minimal reproduction: bi.sample(lik, rationality=bi.LogNormal(0, 0.5), pin={"x": 1.0})
-    # on any problem prints that warning; here a healthy 4 x 1000 run (ESS > 1500 for every
-    # free quantity, no divergences).
+    # Regression (found while writing these tests, fixed in 7062d0f): the pinned weight's
+    # constant draws have NaN R-hat, which used to warn "R-hat >= 1.01 for x" on every run
+    # with a pin. A healthy 4 x 1000 run (ESS > 1500 for every free quantity).
     d = nuts_pinned().diagnostics
     free = [i for i, n in enumerate(d.names) if n != "x"]
     assert np.all(d.rhat[free] < diag.RHAT_MAX) and d.divergences == 0
     assert d.warnings == ()
+
+
+def test_nan_diagnostics_warn_unless_the_parameter_is_pinned():
+    # NaN (e.g. a free weight stuck at one value) must never pass silently; only names
+    # declared fixed (pinned) are exempt.
+    nan = np.array([np.nan, 1.0])
+    ess = np.array([np.nan, 1000.0])
+    args = (nan, ess, ess, 0, np.array([0.9, 0.9]))
+    assert [w.split(" ")[0] for w in diag._warnings(("x", "y"), *args)] == ["R-hat", "bulk-"]
+    assert diag._warnings(("x", "y"), *args, fixed={"x"}) == ()
