@@ -40,18 +40,20 @@ def rank_figure(result: SBCResult, bins: int | None = None, title: str = "") -> 
     axes = np.atleast_1d(fig.subplots(1, len(tests), sharey=True))
     edges = np.arange(b + 1)
     for ax, test in zip(axes, tests, strict=True):
-        ax.fill_between(edges, lo, hi, color="0.85", step=None,
-                        label=f"{BAND_LEVEL:.0%} binomial band")
+        ax.fill_between(edges, lo, hi, color="0.85")
         ax.axhline(test.expected, color="0.5", lw=0.8)
-        ax.bar(edges[:-1] + 0.5, test.counts, width=1.0, color="#4c72b0", edgecolor="white")
+        ax.bar(edges[:-1] + 0.5, test.counts, width=1.0, color="#4c72b0", edgecolor="white",
+               alpha=0.8)
+        for bound in (lo, hi):
+            ax.axhline(bound, color="0.4", lw=0.8, ls="--")
         ax.set_xlim(0, b)
         verdict = "pass" if test.passed else "FAIL"
         ax.set_title(f"{test.name}: p = {test.p_value:.3f} ({verdict})", fontsize=9)
         ax.set_xlabel(f"rank bin (L = {result.settings.n_draws}, {b} bins)", fontsize=8)
     axes[0].set_ylabel(f"replications (of {n_rep})", fontsize=8)
-    axes[0].legend(fontsize=7, loc="lower left")
-    if title:
-        fig.suptitle(title, fontsize=10)
+    note = (f"grey, dashed: central {BAND_LEVEL:.0%} band of one bin's count under uniformity "
+            f"(Binomial({n_rep}, 1/{b})); solid line: expected count")
+    fig.suptitle(f"{title}\n{note}" if title else note, fontsize=9)
     return fig
 
 
