@@ -16,6 +16,9 @@ from matplotlib.figure import Figure
 from bayesirl.validation.ranks import BAND_LEVEL, binomial_band
 from bayesirl.validation.runner import SBCResult
 
+# Report files are readable by everyone (mkstemp creates them 0600).
+FILE_MODE = 0o644
+
 
 def rank_figure(result: SBCResult, bins: int | None = None, title: str = "") -> Figure:
     """One histogram of binned ranks per parameter, with the per-bin binomial band.
@@ -65,6 +68,7 @@ def save_png(fig: Figure, path: Path) -> Path:
     os.close(fd)
     try:
         fig.savefig(tmp, format="png")
+        os.chmod(tmp, FILE_MODE)  # mkstemp makes 0600; give the usual permissions
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

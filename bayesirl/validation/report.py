@@ -18,7 +18,7 @@ from bayesirl.bench.report import machine, write_atomic
 from bayesirl.priors import LogNormal
 from bayesirl.validation.controls import Control, run_controls
 from bayesirl.validation.grid import GridSBC
-from bayesirl.validation.plots import rank_figure, save_png
+from bayesirl.validation.plots import FILE_MODE, rank_figure, save_png
 from bayesirl.validation.ranks import ALPHA, MIN_EXPECTED
 from bayesirl.validation.runner import SBCResult, SBCSettings, run_sbc
 
@@ -65,6 +65,7 @@ def run_validation(
     text = render(runs, controls, replications, time.perf_counter() - t0)
     path = out / "validation.md"
     write_atomic(path, text)
+    path.chmod(FILE_MODE)  # write_atomic's mkstemp leaves 0600
     ok = all(r.passed() for _, r, _ in runs.values()) and all(c.ok for c in controls)
     return path, ok
 
@@ -158,17 +159,17 @@ def _run_section(key: str, title: str, result: SBCResult, png: Path) -> list[str
         f"| smallest ESS per replication | median {np.median(ess):.0f}, minimum {ess.min():.0f} |",
         f"| largest R-hat per replication | median {np.nanmedian(rhat):.3f}, maximum "
         f"{np.nanmax(rhat):.3f} |",
-        f"| divergent transitions | {int(div.sum())} in {int(np.sum(div > 0))} replications |",
-        f"| posterior rerun with more draws | {sum(r.attempts > 1 for r in reps)} replications;"
-        f" {sum(r.short for r in reps)} still short of L independent draws |",
-        f"| sampler restarted after an error | {len(restarted)} replications |",
+        f"| divergent transitions | {int(div.sum())} in {_count(int(np.sum(div > 0)))} |",
+        f"| posterior rerun with more draws | {_count(sum(r.attempts > 1 for r in reps))}; "
+        f"{sum(r.short for r in reps)} still short of L independent draws |",
+        f"| sampler restarted after an error | {_count(len(restarted))} |",
         "",
         f"![rank histograms, {title}]({png.name})",
         "",
     ]
     for msg in sorted({m for r in restarted for m in r.restarts}):
         count = sum(msg in r.restarts for r in restarted)
-        lines.append(f"- restart after `{msg}` ({count} replications; see Known issues)")
+        lines.append(f"- restart after `{msg}` ({_count(count)}; see Known issues)")
     return [*lines, ""] if restarted else lines
 
 
@@ -201,3 +202,7 @@ def _controls_section(controls: list[Control]) -> list[str]:
         "",
     ]
     return lines
+
+
+def _count(n: int) -> str:
+    return f"{n} replication{'' if n == 1 else 's'}"
