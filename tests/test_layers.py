@@ -12,6 +12,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "bayesirl"
 # Lower number = lower layer; a module may import only from its own layer or lower ones.
 LAYERS = {
     "errors": 0,
+    "files": 0,
     "kernels": 1,
     "solver": 2,
     "model": 3,

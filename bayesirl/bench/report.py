@@ -5,11 +5,12 @@ from __future__ import annotations
 import json
 import os
 import platform
-import tempfile
 from pathlib import Path
 
 import numpy as np
 import scipy
+
+from bayesirl.files import write_text
 
 
 def machine() -> dict:
@@ -27,16 +28,8 @@ def machine() -> dict:
 
 
 def write_atomic(path: Path, text: str) -> None:
-    """Write to a temporary file in the same folder, then rename over ``path``."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.")
-    try:
-        with os.fdopen(fd, "w") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    """Write a report file atomically (see :mod:`bayesirl.files`)."""
+    write_text(path, text)
 
 
 def _engine_md(engine: dict) -> list[str]:

@@ -2,14 +2,13 @@
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 import scipy.sparse as sp
 
 from bayesirl.errors import InputError
+from bayesirl.files import atomic_target
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP
 from bayesirl.posterior.model import PosteriorModel
@@ -85,13 +84,6 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
 
 def write_netcdf(idata, path: Path) -> Path:
     """``idata.to_netcdf`` into a temporary file beside ``path``, then rename."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    os.close(fd)
-    try:
-        idata.to_netcdf(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    with atomic_target(path) as tmp:
+        idata.to_netcdf(str(tmp))
+    return Path(path)

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from bayesirl.files import write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
 from bayesirl.report import derived, structural
 from bayesirl.report.weights import directions, weights_table
@@ -45,13 +46,10 @@ class AmbiguityReport:
 
     def to_json(self, path) -> Path:
         """Write every number of the report as JSON (atomically)."""
-        from bayesirl.report.files import write_text
-
         return write_text(Path(path), json.dumps(self.as_dict(), indent=2, default=_plain) + "\n")
 
     def to_html(self, path) -> Path:
         """Write one self-contained HTML page with the tables and plots (atomically)."""
-        from bayesirl.report.files import write_text
         from bayesirl.report.html import render_html
 
         return write_text(Path(path), render_html(self))

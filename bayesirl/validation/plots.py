@@ -5,19 +5,17 @@ Matplotlib's object API with the Agg canvas: no pyplot, no global backend switch
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from bayesirl.files import atomic_target
 from bayesirl.validation.ranks import BAND_LEVEL, binomial_band
 from bayesirl.validation.runner import SBCResult
 
 # Report files are readable by everyone (mkstemp creates them 0600).
-FILE_MODE = 0o644
 
 
 def rank_figure(result: SBCResult, bins: int | None = None, title: str = "") -> Figure:
@@ -62,15 +60,6 @@ def rank_figure(result: SBCResult, bins: int | None = None, title: str = "") -> 
 
 def save_png(fig: Figure, path: Path) -> Path:
     """Write ``fig`` to a temporary PNG beside ``path``, then rename it over ``path``."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=".png")
-    os.close(fd)
-    try:
+    with atomic_target(path) as tmp:
         fig.savefig(tmp, format="png")
-        os.chmod(tmp, FILE_MODE)  # mkstemp makes 0600; give the usual permissions
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    return Path(path)

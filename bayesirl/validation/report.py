@@ -18,7 +18,7 @@ from bayesirl.bench.report import machine, write_atomic
 from bayesirl.priors import LogNormal
 from bayesirl.validation.controls import Control, run_controls
 from bayesirl.validation.grid import GridSBC
-from bayesirl.validation.plots import FILE_MODE, rank_figure, save_png
+from bayesirl.validation.plots import rank_figure, save_png
 from bayesirl.validation.ranks import ALPHA, MIN_EXPECTED
 from bayesirl.validation.runner import SBCResult, SBCSettings, run_sbc
 
@@ -65,7 +65,6 @@ def run_validation(
     text = render(runs, controls, replications, time.perf_counter() - t0)
     path = out / "validation.md"
     write_atomic(path, text)
-    path.chmod(FILE_MODE)  # write_atomic's mkstemp leaves 0600
     ok = all(r.passed() for _, r, _ in runs.values()) and all(c.ok for c in controls)
     return path, ok
 

@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 
 import bayesirl as bi
+from bayesirl import files as report_files
 from bayesirl.report import ambiguity
-from bayesirl.report import files as report_files
 from bayesirl.report.structural import describe
 from bayesirl.report.weights import CONTRACTION_VERDICTS
 
