@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+import math
 import os
 import tempfile
 from collections.abc import Iterator
@@ -34,3 +36,26 @@ def write_text(path, text: str) -> Path:
                                                encoding="utf-8") as fh:
         fh.write(text)
     return Path(path)
+
+
+def plain_json(value):
+    """``value`` with numpy scalars/arrays made plain and non-finite floats made ``None``.
+
+    RFC 8259 JSON has no NaN or Infinity; Python's ``json`` writes them anyway and strict
+    readers (JavaScript's ``JSON.parse``, jq) then reject the whole file.
+    """
+    if isinstance(value, dict):
+        return {k: plain_json(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [plain_json(v) for v in value]
+    if hasattr(value, "tolist") and not isinstance(value, (str, bytes)):
+        return plain_json(value.tolist())
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def write_json(path, value, **dumps_kwargs) -> Path:
+    """Write ``value`` as strict JSON (non-finite numbers as null) to ``path`` atomically."""
+    text = json.dumps(plain_json(value), allow_nan=False, indent=2, **dumps_kwargs)
+    return write_text(path, text + "\n")

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import os
 import platform
 from pathlib import Path
@@ -10,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import scipy
 
-from bayesirl.files import write_text
+from bayesirl.files import write_json, write_text
 
 
 def machine() -> dict:
@@ -25,11 +24,6 @@ def machine() -> dict:
         "scipy": scipy.__version__,
         "numba": numba.__version__,
     }
-
-
-def write_atomic(path: Path, text: str) -> None:
-    """Write a report file atomically (see :mod:`bayesirl.files`)."""
-    write_text(path, text)
 
 
 def _engine_md(engine: dict) -> list[str]:
@@ -139,6 +133,6 @@ def render(results: dict) -> str:
 def write(results: dict, folder: Path) -> tuple[Path, Path]:
     """Write both files; returns their paths."""
     md, js = folder / "benchmark.md", folder / "benchmark.json"
-    write_atomic(js, json.dumps(results, indent=2, sort_keys=True) + "\n")
-    write_atomic(md, render(results))
+    write_json(js, results, sort_keys=True)
+    write_text(md, render(results))
     return md, js

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from bayesirl.files import write_text
+from bayesirl.files import write_json, write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
 from bayesirl.report import derived, structural
 from bayesirl.report.weights import directions, weights_table
@@ -46,7 +45,7 @@ class AmbiguityReport:
 
     def to_json(self, path) -> Path:
         """Write every number of the report as JSON (atomically)."""
-        return write_text(Path(path), json.dumps(self.as_dict(), indent=2, default=_plain) + "\n")
+        return write_json(Path(path), self.as_dict())
 
     def to_html(self, path) -> Path:
         """Write one self-contained HTML page with the tables and plots (atomically)."""
@@ -62,14 +61,6 @@ class AmbiguityReport:
 
     def __str__(self) -> str:
         return self.table()
-
-
-def _plain(x):
-    if isinstance(x, np.generic):
-        return x.item()
-    if isinstance(x, np.ndarray):
-        return x.tolist()
-    raise TypeError(f"not JSON serialisable: {type(x).__name__}")
 
 
 def _diagnostics(posterior) -> dict:

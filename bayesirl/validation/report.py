@@ -14,7 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from bayesirl.bench.report import machine, write_atomic
+from bayesirl.bench.report import machine
+from bayesirl.files import write_text
 from bayesirl.priors import LogNormal
 from bayesirl.validation.controls import Control, run_controls
 from bayesirl.validation.grid import GridSBC
@@ -64,7 +65,7 @@ def run_validation(
     controls = run_controls({k: r for k, (_, r, _) in runs.items()}, processes=processes)
     text = render(runs, controls, replications, time.perf_counter() - t0)
     path = out / "validation.md"
-    write_atomic(path, text)
+    write_text(path, text)
     ok = all(r.passed() for _, r, _ in runs.values()) and all(c.ok for c in controls)
     return path, ok
 
