@@ -8,11 +8,15 @@ so the overall scale of ``w`` must be pinned by fixing one named weight.
 from __future__ import annotations
 
 import json
+import math
 
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
+
+
+_LOG_MAX = math.log(np.finfo(float).max)
 
 
 class PosteriorModel:
@@ -67,10 +71,11 @@ class PosteriorModel:
         k = self.free.size
         w = self.pinned_values.copy()
         w[self.free] = self._free_prior.transform(theta[:k])
-        beta = self.fixed_rationality if self.fixed_rationality is not None else float(
-            np.exp(theta[k])
-        )
-        return w, beta
+        if self.fixed_rationality is not None:
+            return w, self.fixed_rationality
+        # Saturate instead of warning: beyond the float range the caller sees 0 or inf.
+        log_beta = float(theta[k])
+        return w, (math.inf if log_beta > _LOG_MAX else math.exp(log_beta))
 
     def logdensity_and_grad(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
         """Log-posterior (up to a constant) and its gradient in ``theta``.
@@ -81,6 +86,8 @@ class PosteriorModel:
         k = self.free.size
         prior = self._free_prior
         w, beta = self.unpack(theta)
+        if not _representable(beta):
+            return -np.inf, np.full(self.dim, np.nan)
         try:
             value = self.likelihood.evaluate(w, beta)
         except SolverError:
@@ -103,6 +110,8 @@ class PosteriorModel:
         """Log-posterior without the gradient (for gradient-free samplers)."""
         k = self.free.size
         w, beta = self.unpack(theta)
+        if not _representable(beta):
+            return -np.inf
         try:
             total = self.likelihood.value(w, beta) + self._free_prior.log_density(theta[:k])[0]
         except SolverError:
@@ -130,6 +139,17 @@ class PosteriorModel:
             "rationality": from_json(rat) if isinstance(rat, str) else float(rat),
             "pin": dict(spec["pin"]),
         }
+
+
+def _representable(beta: float) -> bool:
+    """False when ``exp(log beta)`` under- or overflowed (``|log beta| > ~709``).
+
+    There the LogNormal prior density is below exp(-10^5) for any sensible prior scale, so
+    treating the point as outside the support (-inf: a divergence or a rejection for the
+    samplers) changes nothing measurable, while passing beta = 0 or inf on would be refused
+    by the likelihood's input check and abort the run.
+    """
+    return 0.0 < beta < np.inf
 
 
 def _restrict(prior, idx: np.ndarray, n: int):
