@@ -15,7 +15,6 @@ import numpy as np
 from bayesirl.errors import InputError, SolverError
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
-
 _LOG_MAX = math.log(np.finfo(float).max)
 
 

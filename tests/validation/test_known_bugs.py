@@ -8,6 +8,7 @@ step-size search from a steep start (2 of 40 SBC replications).
 from __future__ import annotations
 
 import numpy as np
+
 import bayesirl as bi
 from bayesirl.posterior import PosteriorModel
 from bayesirl.validation import GridSBC
