@@ -136,6 +136,10 @@ def headline(report: AmbiguityReport) -> str:
     parts.append("Of the reward weights, " + "; ".join(
         f"{', '.join(names)} {'is' if len(names) == 1 else 'are'} {word}"
         for word, names in words.items()) + f" (at the {report.level:.0%} level).")
+    open_sign = [r["feature"] for r in report.weights if r["sign"] == "not settled"]
+    if open_sign:
+        parts.append(f"The sign of {', '.join(open_sign)} is not settled: "
+                     f"{'its' if len(open_sign) == 1 else 'each'} interval contains zero.")
     undetermined = [d["text"] for d in report.directions if d["verdict"] == "undetermined"]
     if undetermined:
         parts.append("Undetermined directions: " + "; ".join(undetermined) + ".")

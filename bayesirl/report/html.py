@@ -102,23 +102,25 @@ def _weights(report) -> str:
     lvl = f"{report.level:.0%}"
     truth = any("truth" in r for r in report.weights)
     head = ["feature", "mean", "sd", "median", f"{lvl} interval", f"{lvl} HDI", "prior sd",
-            "contraction", "verdict"] + (["true value", "z-score"] if truth else [])
+            "contraction", "verdict", "sign"] + (["true value", "z-score"] if truth else [])
     rows = []
     for r in report.weights:
         word = Raw(f'<span class="{VERDICT_CLASS.get(r["verdict"], "")}">'
                    f'{escape(r["verdict"])}</span>')
         row = [r["feature"], num(r["mean"]), num(r["sd"]), num(r["median"]),
                interval(r["interval"]), interval(r["hdi"]), num(r["prior_sd"]),
-               num(r["contraction"], ".2f"), word]
+               num(r["contraction"], ".2f"), word, r["sign"]]
         if truth:
             row += [num(r.get("truth")), num(r.get("z_score"), ".2f")]
         rows.append(row)
     note = ("<p class=\"note\">Contraction is 1 \u2212 posterior variance / prior variance: near 1 "
-            "the demonstrations did the work, near 0 the prior still speaks. HDI is the "
+            "the demonstrations did the work, near 0 the prior still speaks. Against a broad "
+            "prior a weight can contract a lot and still have an interval that straddles "
+            "zero: the sign column says whether the interval settles it. HDI is the "
             "highest-density interval.</p>")
     fig = None if report.posterior is None else plots.marginals(report.posterior,
                                                                 report.weights, report.level)
-    return section("weights", table(head, rows, "l" + "r" * 7 + "ll") + note + figure(
+    return section("weights", table(head, rows, "l" + "r" * 7 + "lll") + note + figure(
         fig, "histograms of the posterior draws of each weight with the prior density",
         f"Posterior draws of each free weight (bars), their {lvl} interval (band) and the "
         "prior density (dashed). Pinned weights are not drawn.",

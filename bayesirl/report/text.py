@@ -8,12 +8,12 @@ def render_text(report) -> str:
     lvl = f"{report.level:.0%}"
     lines = [report.verdict, "",
              f"{'feature':<14}{'mean':>9}{'sd':>8}{lvl + ' interval':>22}{'contraction':>13}"
-             f"  verdict"]
+             f"  {'verdict':<22}sign"]
     for r in report.weights:
         lo, hi = r["interval"]
         c = "-" if r["contraction"] is None else f"{r['contraction']:.2f}"
         lines.append(f"{r['feature']:<14}{r['mean']:9.3f}{r['sd']:8.3f}"
-                     f"{f'[{lo:.3f}, {hi:.3f}]':>22}{c:>13}  {r['verdict']}")
+                     f"{f'[{lo:.3f}, {hi:.3f}]':>22}{c:>13}  {r['verdict']:<22}{r['sign']}")
     und = [d["text"] for d in report.directions if d["verdict"] == "undetermined"]
     if und:
         lines += ["", "undetermined directions:"] + [f"  {t}" for t in und]

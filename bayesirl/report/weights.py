@@ -27,6 +27,20 @@ def verdict(contraction: float) -> str:
     return CONTRACTION_VERDICTS[-1][1]
 
 
+def sign_word(lo: float, hi: float) -> str:
+    """Whether the credible interval settles the sign of a weight.
+
+    Contraction is measured against the prior, so with a broad prior a weight can be "pinned
+    down" while its interval still straddles zero; the sign says what a reader usually wants
+    to know first (is this feature liked or avoided?).
+    """
+    if lo > 0:
+        return "positive"
+    if hi < 0:
+        return "negative"
+    return "zero" if lo == hi == 0 else "not settled"
+
+
 def flat_draws(posterior) -> np.ndarray:
     """Weights as ``(chains * draws, F)``."""
     return posterior.weights.reshape(-1, posterior.weights.shape[-1])
@@ -62,6 +76,7 @@ def weights_table(posterior, level: float = 0.9, prior=None, truth=None) -> list
             "prior_sd": float(np.sqrt(var_prior[i])),
             "pinned": pinned,
         }
+        row["sign"] = sign_word(*row["interval"])
         if pinned:
             row["contraction"], row["verdict"] = None, "pinned by assumption"
         else:
