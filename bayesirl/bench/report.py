@@ -91,9 +91,10 @@ def _sampler_md(sampler: dict) -> list[str]:
             draws = (case["draws"] * (4 if r["method"] == "random-walk" else 1)
                      if not r["method"].startswith("emcee") else "-")
             lines.append(
-                f"| {case['states']} | {r['method']} | {draws} | {r['min_bulk_ess']:.0f} | "
+                f"| {case['states']} | {r['method']} | {draws} | "
+                f"{_fmt(r['min_bulk_ess'], '.0f')} | "
                 f"{r['ess_per_s']:.3g} | {r['vs_emcee']:.1f}x | {r['evals_per_ess']:.1f} | "
-                f"{r['max_rhat']:.3f} | {r['divergences']} |"
+                f"{_fmt(r['max_rhat'], '.3f')} | {r['divergences']} |"
             )
             if r["method"] == "nuts":
                 big = case["states"] == 10**4
@@ -109,6 +110,11 @@ def _sampler_md(sampler: dict) -> list[str]:
     lines += ["", "### Targets", "", "| target | states | measured | met |", "|---|---|---|---|"]
     lines += [f"| {t} | {n} | {m} | {'yes' if ok else 'no'} |" for t, n, m, ok in targets]
     return lines + [""]
+
+
+def _fmt(x, spec: str) -> str:
+    """Format a number; None (JSON null) or NaN, e.g. a proxy row's unmeasured ESS, as n/a."""
+    return "n/a" if x is None or x != x else format(x, spec)
 
 
 def render(results: dict) -> str:
