@@ -1,0 +1,71 @@
+"""Writing a sampled posterior into a run folder: posterior, summary and report."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import bayesirl
+from bayesirl.files import write_json
+from bayesirl.io import RunFolder
+from bayesirl.io.runfolder import RUN_FORMAT, file_digest
+
+DEFAULT_LEVEL = 0.9
+
+
+def inputs_record(problem_path, demos_path) -> dict:
+    """Absolute input paths and their digests (a resume re-reads and compares them)."""
+    paths = {"problem": Path(problem_path).resolve(),
+             "demonstrations": Path(demos_path).resolve()}
+    return {"problem": str(paths["problem"]), "demonstrations": str(paths["demonstrations"]),
+            "inputs_sha256": {k: file_digest(p) for k, p in paths.items()}}
+
+
+def write_results(run: RunFolder, posterior, record: dict, complete: bool,
+                  level: float = DEFAULT_LEVEL, quiet: bool = False) -> dict:
+    """``posterior.nc``, ``summary.json`` and, for a finished run, ``report.html``.
+
+    Parameters
+    ----------
+    run : RunFolder
+    posterior : Posterior or None
+        None when nothing was drawn yet (interrupted during warm-up).
+    record : dict
+        Inputs, requested settings and the command line (see :func:`inputs_record`).
+    complete : bool
+        Whether every requested draw was made.
+    level : float
+        Credible level of the report's intervals.
+    quiet : bool
+        Do not print the report table.
+
+    Returns
+    -------
+    dict
+        The summary written.
+    """
+    summary = {"format": RUN_FORMAT, "complete": bool(complete),
+               "bayesirl_version": bayesirl.__version__, **record,
+               "draws_done": 0 if posterior is None else int(posterior.n_draws)}
+    if posterior is not None and posterior.n_draws > 0:
+        posterior.save(run.posterior)
+    if complete:
+        from bayesirl.report import ambiguity
+
+        report = ambiguity(posterior, level=level)
+        report.to_html(run.report)
+        summary.update(level=level, report=report.as_dict())
+        if not quiet:
+            print(report.table())
+    else:
+        summary["note"] = ("interrupted: the draws so far are in posterior.nc and the sampler "
+                           "state in checkpoint; continue with bayesirl fit --resume "
+                           "<this folder>; report.html is written when the run completes")
+    write_json(run.summary, summary)
+    return summary
+
+
+def say(args, text: str) -> None:
+    """A status line on stderr (hidden with --quiet)."""
+    if not getattr(args, "quiet", False):
+        print(text, file=sys.stderr)
