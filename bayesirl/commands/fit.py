@@ -13,7 +13,7 @@ import bayesirl
 from bayesirl.commands.runs import inputs_record, say, write_results
 from bayesirl.errors import InputError
 from bayesirl.io import RunFolder, read_demonstrations, read_problem, staged_folder
-from bayesirl.io.runfolder import file_digest
+from bayesirl.io.runfolder import check_target, file_digest
 from bayesirl.likelihood import BoltzmannLikelihood
 
 # The shell's convention for a process stopped by SIGINT (128 + 2).
@@ -66,6 +66,7 @@ def fit_command(args) -> int:
     if not (args.problem and args.demonstrations):
         raise InputError("fit: give a problem file and a demonstration file, e.g. "
                          "bayesirl fit park.toml walks.csv --out run")
+    check_target(args.out, args.force)  # before the slower reading and checking
     problem, lik = _load(args.problem, args.demonstrations)
     settings = dict(problem.sampler)
     for key in OVERRIDES:

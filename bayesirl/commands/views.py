@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import inspect
 import sys
+from pathlib import Path
 
 from bayesirl.commands.runs import say
 from bayesirl.errors import InputError
@@ -29,7 +30,7 @@ def report_command(args) -> int:
     """Re-render a run folder's report (and summary) at another interval level."""
     from bayesirl.report import ambiguity
 
-    run = RunFolder(args.run)
+    run = RunFolder(Path(args.run))
     summary = run.read_summary()
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
@@ -70,7 +71,7 @@ def suggest_command(args) -> int:
     except ImportError:
         raise RuntimeError("this installation has no demonstration designer "
                            "(bayesirl.design)") from None
-    run = RunFolder(args.run)
+    run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = _load_posterior(run, summary)
     names = posterior.feature_names

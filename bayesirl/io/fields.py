@@ -46,7 +46,8 @@ def load_toml(path: Path) -> dict:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
-        raise InputError(f"{path}: not valid TOML: {err}") from None
+        hint = "; the file seems truncated" if "end of document" in str(err) else ""
+        raise InputError(f"{path}: not valid TOML: {err}{hint}") from None
 
 
 class Table:
@@ -91,7 +92,8 @@ class Table:
         if below or above:
             lb = "(" if low_open else "["
             hb = ")" if high_open else "]"
-            span = f"{lb}{'-inf' if low is None else low}, {'inf' if high is None else high}{hb}"
+            span = (f"{lb}{'-inf' if low is None else f'{low:g}'}, "
+                    f"{'inf' if high is None else f'{high:g}'}{hb}")
             raise self.fail(key, v, f"a number in {span}")
         return float(v)
 

@@ -58,6 +58,10 @@ def parse_map(table: Table) -> Grid:
     features = table.strings("features")
     if not features:
         raise table.fail("features", features, "at least one feature name")
+    clash = [f for f in features if f in LEGEND_FLAGS]
+    if clash:
+        raise table.fail("features", features, "feature names other than "
+                         f"{', '.join(LEGEND_FLAGS)} (legend flags); rename {clash[0]!r}")
     moves = table.integer("moves", 4)
     if moves not in (4, 8):
         raise table.fail("moves", moves, "4 or 8")

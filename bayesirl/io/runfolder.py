@@ -81,6 +81,13 @@ def file_digest(path) -> str:
     return h.hexdigest()
 
 
+def check_target(target, replace: bool = False) -> None:
+    """An existing ``target`` is an :class:`InputError` unless it may be replaced."""
+    if Path(target).exists() and not replace:
+        raise InputError(f"{target}: already exists; choose another --out, add --force to "
+                         "replace it, or --resume it if it is an interrupted run")
+
+
 @contextmanager
 def staged_folder(target, replace: bool = False, seed_from=None) -> Iterator[Path]:
     """Yield a fresh temporary sibling of ``target``; on success it becomes ``target``.
@@ -98,9 +105,7 @@ def staged_folder(target, replace: bool = False, seed_from=None) -> Iterator[Pat
     On an exception the staging folder is removed and ``target`` is left as it was.
     """
     target = Path(target)
-    if target.exists() and not replace:
-        raise InputError(f"{target}: already exists; choose another --out, add --force to "
-                         "replace it, or --resume it if it is an interrupted run")
+    check_target(target, replace)
     target.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(dir=target.parent, prefix=f".{target.name}.partial-"))
     try:

@@ -36,6 +36,8 @@ def prior_from(table: Table, features: list[str]):
     params = WEIGHT_PRIORS[kind]
     table.only({"kind", *params})
     values = {k: _per_feature(table, k, d, features) for k, d in params.items()}
+    if "scale" in values and np.any(np.asarray(values["scale"]) <= 0):
+        raise table.fail("scale", table.data["scale"], "a positive number (or one per feature)")
     prior = PRIORS[kind](**values)
     try:
         prior.params(len(features))

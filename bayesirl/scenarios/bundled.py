@@ -20,7 +20,7 @@ from bayesirl.scenarios.machine import MACHINE_WEIGHTS, machine_arrays
 from bayesirl.scenarios.park import PARK, PARK_WEIGHTS, SLIP
 
 # Small sampler settings keep a bundled example to seconds on two cores; the write-ups say so.
-EXAMPLE_SAMPLER = "chains = 4\ndraws = 400\nwarmup = 300\nseed = 0\n"
+EXAMPLE_SAMPLER = "chains = 4\ndraws = 600\nwarmup = 400\nseed = 0\n"
 
 
 def _park_map() -> str:
