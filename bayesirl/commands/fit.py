@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import multiprocessing
 import shlex
 import shutil
 import signal
@@ -28,8 +29,16 @@ def can_checkpoint() -> bool:
 
 @contextmanager
 def sigterm_as_interrupt():
-    """SIGTERM stops the run like Ctrl-C (the sampler may install its own handler inside)."""
+    """SIGTERM stops the run like Ctrl-C (the sampler may install its own handler inside).
+
+    ``kill PID`` reaches this process only, unlike Ctrl-C, which reaches the sampler's worker
+    processes too; without checkpoints they are stopped here, or shutting the pool down would
+    wait for them to finish their chains.
+    """
     def handler(signum, frame):
+        if not can_checkpoint():
+            for child in multiprocessing.active_children():
+                child.terminate()
         raise KeyboardInterrupt
 
     try:
@@ -91,14 +100,9 @@ def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> 
     with sigterm_as_interrupt():
         try:
             posterior = bayesirl.sample(lik, **kwargs)
-        except KeyboardInterrupt:
-            if can_checkpoint():
-                raise  # the sampler would have raised Interrupted; nothing to keep
-            raise InputError("interrupted before sampling finished; nothing was written "
-                             "(this installation cannot keep partial runs)") from None
-        except Exception as err:
+        except BaseException as err:  # Interrupted may derive from KeyboardInterrupt
             if not (can_checkpoint() and isinstance(err, bayesirl.Interrupted)):
-                raise
+                raise  # without checkpoints a Ctrl-C keeps nothing (the CLI says so)
             write_results(run, err.posterior, record, complete=False, quiet=True)
             return EXIT_INTERRUPTED
     _remove(run.checkpoint)  # a finished run needs no sampler state
