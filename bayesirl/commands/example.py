@@ -27,6 +27,9 @@ def example_command(args, run_fit) -> int:
     folder = Path(args.folder)
     if folder.exists() and not folder.is_dir():
         raise InputError(f"{folder}: exists and is not a folder")
+    if (folder / "run").exists() and not args.force:
+        raise InputError(f"{folder / 'run'}: already exists; add --force to replace it, or "
+                         "choose another folder")
     problem, demos = EXAMPLES[args.name].write(folder)
     argv = ["fit", str(problem), str(demos), "--out", str(folder / "run")]
     if args.force:

@@ -157,6 +157,8 @@ CASES = [
      ["notrun/summary.json: missing", "not a run folder"]),
     ("resume-not-a-run", {}, ["fit", "--resume", "nowhere"], ["nowhere: no such run folder"]),
     ("unknown-example", {}, ["example", "volcano", "out"], ["unknown example 'volcano'"]),
+    ("example-run-exists", {"ex/run/x.txt": "x"}, ["example", "park", "ex"],
+     ["ex/run: already exists", "--force"]),
 ]
 
 
@@ -208,7 +210,7 @@ def test_usage_errors_exit_2(capsys):
     assert main(["no-such-command"]) == 2
 
 
-@pytest.mark.parametrize("case", ["unknown-action", "binary-problem"])
+@pytest.mark.parametrize("case", ["unknown-action"])
 def test_bad_input_through_a_real_process(case, tiny):
     _, files, argv, fragments = next(c for c in CASES if c[0] == case)
     _write(tiny[0].parent, files)
