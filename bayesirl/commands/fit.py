@@ -71,6 +71,10 @@ def fit_command(args) -> int:
         if args.problem or args.demonstrations:
             raise InputError("fit --resume RUNDIR takes no problem or demonstration files; "
                              "the run folder records them")
+        given = [f"--{k}" for k in OVERRIDES if getattr(args, k, None) is not None]
+        if given or args.force:
+            raise InputError(f"fit --resume continues with the run's own settings; drop "
+                             f"{', '.join(given + (['--force'] if args.force else []))}")
         return resume_command(args)
     if not (args.problem and args.demonstrations):
         raise InputError("fit: give a problem file and a demonstration file, e.g. "

@@ -61,7 +61,10 @@ def parse_candidates(text: str, n_states: int):
 
 
 def _field(record, name):
-    return record[name] if isinstance(record, dict) else getattr(record, name)
+    value = record[name] if isinstance(record, dict) else getattr(record, name)
+    if name == "candidate" and not isinstance(value, int | str | list | tuple | dict):
+        value = value.tolist() if hasattr(value, "tolist") else str(value)  # JSON-ready
+    return value
 
 
 def suggest_command(args) -> int:

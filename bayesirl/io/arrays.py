@@ -35,6 +35,7 @@ class World(NamedTuple):
     action_names: tuple[str, ...] | None
     grid_shape: tuple[int, int] | None = None
     blocked: tuple[int, ...] = ()
+    origin: str = ""  # the data file(s) the arrays came from, for messages
 
 
 def from_map(table: Table) -> World:
@@ -122,7 +123,9 @@ def from_arrays(table: Table) -> World:
                 isinstance(x, int) and not isinstance(x, bool) for x in g)):
             raise table.fail("grid", g, "[rows, cols] (two integers)")
         grid = (g[0], g[1])
-    return World(transitions, features, names, data.get("start"), actions, grid)
+    origin = ", ".join(str(p) for p in (npz_path, table.path("features_csv", None)) if p)
+    return World(transitions, features, names, data.get("start"), actions, grid,
+                 origin=f"(from {origin})")
 
 
 def _transitions(data: dict, path: Path):
@@ -174,7 +177,8 @@ def from_gym(table: Table) -> World:
     desc = getattr(base, "desc", None)
     shape = tuple(int(x) for x in np.shape(desc)) if desc is not None else None
     actions = GYM_ACTIONS.get(env_id.split("-")[0])
-    return World(matrix, features, names, start, actions, shape)
+    return World(matrix, features, names, start, actions, shape,
+                 origin=f"(from gymnasium {env_id!r})")
 
 
 def _gym_legend(table: Table, env, n_states: int) -> tuple[np.ndarray, list[str]]:

@@ -114,7 +114,8 @@ def read_problem(path) -> Problem:
                          start=parts.start, feature_names=parts.feature_names,
                          grid_shape=parts.grid_shape)
     except InputError as err:
-        raise InputError(f"{path}: [{world}] {err}") from None
+        origin = f" {parts.origin}" if parts.origin else ""
+        raise InputError(f"{path}: [{world}]{origin} {err}") from None
     names = tuple(parts.action_names) if parts.action_names else None
     if names is not None and len(names) != mdp.n_actions:
         raise InputError(f"{path}: [{world}] actions: {len(names)} names for "
