@@ -162,3 +162,58 @@ def test_suggest_ranks_candidates(tiny, capsys):
     assert gains == sorted(gains, reverse=True)
     assert np.isfinite(gains).all()
     assert main(["suggest", str(run), "--target", "nope"]) == 2
+
+
+def test_problem_settings_reach_the_sampler(tiny, monkeypatch, capsys):
+    import bayesirl
+    from bayesirl.errors import InputError
+    from bayesirl.priors import Laplace, LogNormal
+
+    seen = {}
+
+    def stand_in(lik, **kwargs):
+        seen.update(kwargs, q=lik.q, steps=lik.demos.n_steps)
+        raise InputError("stop here")
+
+    monkeypatch.setattr(bayesirl, "sample", stand_in)
+    problem, demos = tiny
+    problem.write_text(problem.read_text().replace("[sampler]", "[prior]\nkind = \"laplace\"\n"
+        "scale = [1.0, 3.0]\n[rationality]\nlog_mean = 0.5\nlog_sd = 0.25\n"
+        "pin = { water = 2.0 }\n[sampler]"))
+    assert main(["--quiet", "fit", str(problem), str(demos), "--out",
+                 str(problem.parent / "run"), "--seed", "9"]) == 2
+    assert "stop here" in capsys.readouterr().err
+    assert seen["progress"] is False  # --quiet hides the progress bars
+    assert type(seen["prior"]) is Laplace and seen["prior"].loc == 0.0
+    np.testing.assert_array_equal(seen["prior"].scale, [1.0, 3.0])
+    assert seen["rationality"] == LogNormal(0.5, 0.25) and seen["pin"] == {"water": 2.0}
+    assert (seen["chains"], seen["draws"], seen["warmup"], seen["seed"]) == (2, 60, 60, 9)
+    assert (seen["q"], seen["steps"]) == ("soft", 6)
+    assert not (problem.parent / "run").exists()
+
+
+def test_same_seed_same_draws(tiny):
+    import arviz as az
+
+    folder = tiny[0].parent
+    for out in ("a", "b"):
+        assert _fit(tiny, out, "--chains", "1", "--draws", "30", "--warmup", "30") == 0
+    a, b = (az.from_netcdf(str(folder / out / "posterior.nc")).posterior["weights"].values
+            for out in ("a", "b"))
+    np.testing.assert_array_equal(a, b)
+    assert _fit(tiny, "c", "--chains", "1", "--draws", "30", "--warmup", "30",
+                "--seed", "1") == 0
+    c = az.from_netcdf(str(folder / "c" / "posterior.nc")).posterior["weights"].values
+    assert not np.array_equal(a, c)  # negative control: another seed, other draws
+
+
+@pytest.mark.slow
+def test_machine_example_in_process(tmp_path, capsys):
+    assert main(["example", "machine", str(tmp_path / "m")]) == 0
+    summary = json.loads((tmp_path / "m" / "run" / "summary.json").read_text())
+    assert summary["complete"] and summary["report"]["diagnostics"]["trustworthy"]
+    truth = {"wear": -6.0, "replacement": -4.0}
+    for row in summary["report"]["weights"]:
+        # A 90% interval misses the simulated truth 10% of the time; a 99.9% band (mean
+        # +- 3.3 sd) missing it would point to a bug, not bad luck.
+        assert abs(row["mean"] - truth[row["feature"]]) < 3.3 * row["sd"], row
