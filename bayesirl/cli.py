@@ -103,7 +103,8 @@ def _common() -> argparse.ArgumentParser:
 
 def _add(sub, name: str, help_: str, example: str, func):
     p = sub.add_parser(name, help=help_, parents=[_common()],
-                       description=f"{help_}.", epilog=f"example:\n  {example}",
+                       description=f"{help_[0].upper()}{help_[1:]}.",
+                       epilog=f"example:\n  {example}",
                        formatter_class=argparse.RawDescriptionHelpFormatter)
     p.set_defaults(func=func)
     return p
@@ -113,7 +114,7 @@ def _fit_parser(sub) -> None:
     fit = _add(sub, "fit", "sample the posterior over reward weights into a run folder "
                "(posterior.nc, summary.json, report.html)",
                "bayesirl fit park.toml walks.csv --out park-run --draws 500", _fit)
-    fit.add_argument("problem", nargs="?", help="problem file (TOML); see docs/cli-and-files.md")
+    fit.add_argument("problem", nargs="?", help="problem file (TOML; its format is in the README)")
     fit.add_argument("demonstrations", nargs="?",
                      help="demonstrations: .csv (one row per step) or .jsonl (one episode per "
                           "line)")

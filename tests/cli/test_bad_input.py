@@ -155,6 +155,10 @@ CASES = [
      ["run: already exists", "--force"]),
     ("report-not-a-run", {"notrun/x.txt": "x"}, ["report", "notrun"],
      ["notrun/summary.json: missing", "not a run folder"]),
+    ("report-corrupt-posterior", {"r/summary.json": '{"format": "bayesirl-run/1", '
+                                                    '"complete": true}',
+                                  "r/posterior.nc": b"CDF\x01 truncated"}, ["report", "r"],
+     ["r/posterior.nc: not a readable posterior file"]),
     ("resume-not-a-run", {}, ["fit", "--resume", "nowhere"], ["nowhere: no such run folder"]),
     ("resume-with-overrides", {}, ["fit", "--resume", "run", "--draws", "5"],
      ["continues with the run's own settings; drop --draws"]),
