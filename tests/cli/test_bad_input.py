@@ -10,7 +10,8 @@ import numpy as np
 import pytest
 
 from bayesirl.cli import main
-from tests.cli.conftest import TINY_CSV, TINY_TOML, run_subprocess
+
+from .helpers import TINY_CSV, TINY_TOML, run_subprocess
 
 
 def toml(old: str, new: str) -> dict:

@@ -9,7 +9,8 @@ import pytest
 
 from bayesirl.cli import build_parser, main
 from bayesirl.scenarios.bundled import EXAMPLES
-from tests.cli.conftest import run_subprocess
+
+from .helpers import run_subprocess
 
 SUBCOMMANDS = ("fit", "report", "suggest", "check", "example", "validate", "bench")
 

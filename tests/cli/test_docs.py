@@ -10,7 +10,8 @@ import pytest
 from bayesirl.io import read_demonstrations, read_problem
 from bayesirl.io.fields import tomllib
 from bayesirl.scenarios.bundled import EXAMPLES
-from tests.cli.conftest import REPO
+
+from .helpers import REPO
 
 DOC = (REPO / "docs" / "cli-and-files.md").read_text()
 

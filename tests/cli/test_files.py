@@ -16,7 +16,8 @@ from bayesirl.priors import Laplace, LogNormal, Normal
 from bayesirl.scenarios import PARK_WEIGHTS, park_mdp
 from bayesirl.scenarios.bundled import EXAMPLES, PARK_TOML
 from bayesirl.scenarios.machine import machine_mdp
-from tests.cli.conftest import REPO
+
+from .helpers import REPO
 
 
 def assert_same_mdp(a, b) -> None:

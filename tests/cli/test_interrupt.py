@@ -19,7 +19,8 @@ import pytest
 
 import bayesirl
 from bayesirl.scenarios.bundled import EXAMPLES
-from tests.cli.conftest import cli_env
+
+from .helpers import cli_env
 
 HAS_CHECKPOINTS = hasattr(bayesirl, "Interrupted")
 # Long enough that the signal lands mid-sampling on a loaded two-core machine.
