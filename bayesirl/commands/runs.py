@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import sys
 from pathlib import Path
 
@@ -44,10 +45,11 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     dict
         The summary written.
     """
+    drawn = posterior is not None and posterior.n_draws > 0
     summary = {"format": RUN_FORMAT, "complete": bool(complete),
                "bayesirl_version": bayesirl.__version__, **record,
-               "draws_done": 0 if posterior is None else int(posterior.n_draws)}
-    if posterior is not None and posterior.n_draws > 0:
+               "draws_done": int(posterior.n_draws) if drawn else _earlier_draws(run)}
+    if drawn:
         posterior.save(run.posterior)
     if complete:
         from bayesirl.report import ambiguity
@@ -63,6 +65,14 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+def _earlier_draws(run: RunFolder) -> int:
+    """Draws kept from before (a resumed run stopped again before drawing any more)."""
+    try:
+        return int(json.loads(run.summary.read_text(encoding="utf-8"))["draws_done"])
+    except (OSError, ValueError, KeyError, TypeError):
+        return 0
 
 
 def say(args, text: str) -> None:

@@ -24,7 +24,7 @@ from .helpers import cli_env
 
 HAS_CHECKPOINTS = hasattr(bayesirl, "Interrupted")
 # Long enough that the signal lands mid-sampling on a loaded two-core machine.
-SAMPLER = "[sampler]\nchains = 2\ndraws = 3000\nwarmup = 200\nseed = 11\n"
+SAMPLER = "[sampler]\nchains = 2\ndraws = 2500\nwarmup = 150\nseed = 11\n"
 # The issue asks for a stop "within a second or two"; on a shared, loaded machine we allow
 # a little more before calling it a failure.
 STOP_WITHIN = 4.0
@@ -86,14 +86,14 @@ def _interrupt_and_resume(tmp_path, signum, uninterrupted):
     summary = json.loads((run / "summary.json").read_text())
     assert summary["complete"] is False and "report" not in summary
     assert (run / "checkpoint").exists() and not (run / "report.html").exists()
-    assert 0 < summary["draws_done"] < 3000
+    assert 0 < summary["draws_done"] < 2500
     assert _weights(run).shape[1] == summary["draws_done"]
     done = subprocess.run([sys.executable, "-m", "bayesirl", "--quiet", "fit", "--resume",
                            str(run)], env=cli_env(), capture_output=True, text=True,
                           timeout=300)
     assert done.returncode == 0, done.stderr
     summary = json.loads((run / "summary.json").read_text())
-    assert summary["complete"] is True and summary["draws_done"] == 3000
+    assert summary["complete"] is True and summary["draws_done"] == 2500
     assert (run / "report.html").is_file() and not (run / "checkpoint").exists()
     # Same seed, same draws: bit-for-bit what the uninterrupted run drew.
     np.testing.assert_array_equal(_weights(run), uninterrupted)
