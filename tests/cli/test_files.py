@@ -165,3 +165,14 @@ def test_committed_example_files_are_what_the_command_writes(name, tmp_path):
                 np.testing.assert_array_equal(a[key], b[key])
         else:
             assert path.read_text() == mine.read_text(), path.name
+
+
+def test_windows_line_endings_and_a_byte_order_mark(tmp_path):
+    EXAMPLES["machine"].write(tmp_path)
+    problem = read_problem(tmp_path / "machine.toml")
+    csv = tmp_path / "d.csv"
+    csv.write_bytes(b"\xef\xbb\xbfepisode,step,state,action\r\n7,0,0,keep\r\n7,1,1,1\r\n"
+                    b"7,2,0,\r\n")
+    demos = read_demonstrations(csv, problem)
+    np.testing.assert_array_equal(demos.episodes[0][0], [0, 1, 0])
+    np.testing.assert_array_equal(demos.episodes[0][1], [0, 1])
