@@ -1,10 +1,19 @@
-"""The ``bayesirl`` command."""
+"""The ``bayesirl`` command: parser, exit codes and error reporting.
+
+Exit codes: 0 success, 2 bad input (a message naming the file, field and value), 1 internal
+error, 130 an interrupted ``fit`` (the draws so far are kept). Tracebacks only with --debug.
+"""
 
 from __future__ import annotations
 
 import argparse
 import sys
+import traceback
 from pathlib import Path
+
+from bayesirl.errors import InputError
+
+EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
 
 def _bench(args: argparse.Namespace) -> int:
@@ -23,32 +32,194 @@ def _bench(args: argparse.Namespace) -> int:
     return 0
 
 
+def _fit(args):
+    from bayesirl.commands.fit import fit_command
+
+    return fit_command(args)
+
+
+def _report(args):
+    from bayesirl.commands.views import report_command
+
+    return report_command(args)
+
+
+def _suggest(args):
+    from bayesirl.commands.views import suggest_command
+
+    return suggest_command(args)
+
+
+def _check(args):
+    from bayesirl.commands.views import check_command
+
+    return check_command(args)
+
+
+def _example(args):
+    from bayesirl.commands.example import example_command
+
+    return example_command(args, main)
+
+
+def _validate(args):
+    from bayesirl.validation.report import validate_command
+
+    return validate_command(args)
+
+
+def _level(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        v = float("nan")
+    if not 0.0 < v < 1.0:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a level in (0, 1), e.g. 0.9")
+    return v
+
+
+def _positive(text: str) -> int:
+    if not text.isdigit() or int(text) < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number >= 1")
+    return int(text)
+
+
+def _count(text: str) -> int:
+    if not text.isdigit():
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number >= 0")
+    return int(text)
+
+
+def _common() -> argparse.ArgumentParser:
+    # Accepted before or after the sub-command; SUPPRESS keeps a sub-command's default from
+    # overwriting a value given before it.
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                        help="show the full traceback of any error")
+    common.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,
+                        help="no progress bars, tables or status lines")
+    return common
+
+
+def _add(sub, name: str, help_: str, example: str, func):
+    p = sub.add_parser(name, help=help_, parents=[_common()],
+                       description=f"{help_[0].upper()}{help_[1:]}.",
+                       epilog=f"example:\n  {example}",
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.set_defaults(func=func)
+    return p
+
+
+def _fit_parser(sub) -> None:
+    fit = _add(sub, "fit", "sample the posterior over reward weights into a run folder "
+               "(posterior.nc, summary.json, report.html)",
+               "bayesirl fit park.toml walks.csv --out park-run --draws 500", _fit)
+    fit.add_argument("problem", nargs="?", help="problem file (TOML; its format is in the README)")
+    fit.add_argument("demonstrations", nargs="?",
+                     help="demonstrations: .csv (one row per step) or .jsonl (one episode per "
+                          "line)")
+    fit.add_argument("--out", default="run", help="run folder to create (default: run); it is "
+                     "built beside it and renamed, never left half-written")
+    fit.add_argument("--force", action="store_true", help="replace an existing run folder")
+    fit.add_argument("--resume", metavar="RUNDIR", help="continue an interrupted run folder to "
+                     "its requested draws, e.g. bayesirl fit --resume park-run")
+    fit.add_argument("--level", type=_level, default=0.9,
+                     help="credible level of the report's intervals (default 0.9)")
+    fit.add_argument("--chains", type=_positive, help="override [sampler] chains, e.g. 4")
+    fit.add_argument("--draws", type=_positive, help="override [sampler] draws per chain")
+    fit.add_argument("--warmup", type=_count, help="override [sampler] warm-up iterations")
+    fit.add_argument("--seed", type=_count, help="override [sampler] seed")
+
+
+def _other_parsers(sub) -> None:
+    rep = _add(sub, "report", "re-render a run folder's report.html and summary.json, e.g. at "
+               "another interval level", "bayesirl report park-run --level 0.5", _report)
+    rep.add_argument("run", help="run folder made by bayesirl fit")
+    rep.add_argument("--level", type=_level, default=0.9,
+                     help="credible level of the intervals (default 0.9)")
+    sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
+               "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
+               _suggest)
+    sug.add_argument("run", help="run folder made by bayesirl fit")
+    sug.add_argument("--candidates", default="start-states",
+                     help="start-states (new episodes from each state), query-states (one "
+                          "labelled action at a state) or states as 0,5,12 "
+                          "(default start-states)")
+    sug.add_argument("--budget", type=_positive, default=1,
+                     help="number of demonstrations to choose together (default 1)")
+    sug.add_argument("--target", help="feature whose weight should be narrowed (default: all)")
+    sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
+    chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
+               "structural identifiability findings, without sampling",
+               "bayesirl check park.toml walks.csv", _check)
+    chk.add_argument("problem", help="problem file (TOML)")
+    chk.add_argument("demonstrations", nargs="?", help="demonstration file (.csv or .jsonl)")
+    ex = _add(sub, "example", "write a bundled example's files into a folder and run it end to "
+              "end into FOLDER/run", "bayesirl example park park-demo   (or: bayesirl example "
+              "--list)", _example)
+    ex.add_argument("name", nargs="?", help="example name (see --list)")
+    ex.add_argument("folder", nargs="?", help="folder for the example's files and run")
+    ex.add_argument("--list", action="store_true", help="name the bundled examples")
+    ex.add_argument("--force", action="store_true", help="replace an existing FOLDER/run")
+    val = _add(sub, "validate", "check the posterior's calibration by simulation (SBC); writes "
+               "reports/validation.md", "bayesirl validate --replications 50 --out /tmp/val",
+               _validate)
+    val.add_argument("--replications", type=_positive, default=200,
+                     help="simulated data sets per check (default 200)")
+    val.add_argument("--out", default="reports", help="folder for the report (default reports)")
+    val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Argument parser with one sub-command per task."""
     parser = argparse.ArgumentParser(
-        prog="bayesirl",
-        description="Posterior over reward weights from demonstrations, and what they leave open.",
+        prog="bayesirl", parents=[_common()],
+        description="Posterior over reward weights from demonstrations, and what they leave "
+                    "open. Exit codes: 0 success, 2 bad input, 1 internal error, 130 "
+                    "interrupted fit.",
+        epilog="example:\n  bayesirl example park park-demo",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    sub = parser.add_subparsers(dest="command", required=True)
-    bench = sub.add_parser(
-        "bench",
-        help="measure the engine against a plain baseline; writes reports/benchmark.md + .json",
-        description="Benchmarks, every competitor measured side by side in one run. "
-        "Example: bayesirl bench --quick --out /tmp/bench",
-    )
+    parser.set_defaults(debug=False, quiet=False)
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    _fit_parser(sub)
+    _other_parsers(sub)
+    bench = _add(sub, "bench", "measure the engine against a plain baseline; writes "
+                 "reports/benchmark.md + .json", "bayesirl bench --quick --out /tmp/bench",
+                 _bench)
     bench.add_argument("--out", default="reports", help="folder for the report (default: reports)")
     bench.add_argument("--quick", action="store_true",
                        help="small sizes only (a smoke run; the committed report is a full run)")
     bench.add_argument("--only", default="",
                        help="comma-separated suites to run: engine, sampler (default: all)")
-    bench.set_defaults(func=_bench)
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
     """Entry point; returns the exit code (0 success, 2 bad input, 1 internal error)."""
-    args = build_parser().parse_args(argv)
-    return args.func(args)
+    argv = list(sys.argv[1:] if argv is None else argv)
+    try:
+        args = build_parser().parse_args(argv)
+    except SystemExit as stop:  # argparse: --help (0) or a usage error (2)
+        return stop.code if isinstance(stop.code, int) else EXIT_BAD_INPUT
+    args.argv = argv
+    try:
+        return int(args.func(args) or 0)
+    except InputError as err:
+        if args.debug:
+            traceback.print_exc()
+        print(f"bayesirl {args.command}: error: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print(f"bayesirl {args.command}: interrupted; nothing was written", file=sys.stderr)
+        return 130
+    except Exception as err:  # anything else is our bug: say so, briefly
+        if args.debug:
+            traceback.print_exc()
+        print(f"bayesirl {args.command}: internal error: {type(err).__name__}: {err}\n"
+              "(run again with --debug for the traceback, and please report it)",
+              file=sys.stderr)
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":

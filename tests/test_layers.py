@@ -27,6 +27,8 @@ LAYERS = {
     "scenarios": 9,
     "bench": 9,
     "cli": 10,
+    "commands": 10,
+    "__main__": 10,
 }
 
 

@@ -1,0 +1,7 @@
+"""``python -m bayesirl`` runs the ``bayesirl`` command."""
+
+import sys
+
+from bayesirl.cli import main
+
+sys.exit(main())

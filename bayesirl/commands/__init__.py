@@ -1,0 +1,1 @@
+"""What each ``bayesirl`` sub-command does (the parser and error handling are in ``cli``)."""

@@ -1,0 +1,130 @@
+"""Problem files (TOML): the world, the demonstrator model, the prior and the sampler settings.
+
+Exactly one world table: ``[map]`` (a grid from a text map and a legend), ``[arrays]``
+(transitions and features from an ``.npz`` file, or features from a CSV) or ``[gym]`` (a
+gymnasium toy-text environment plus a feature specification). The format is described with
+complete examples in docs/cli-and-files.md.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from bayesirl.errors import InputError
+from bayesirl.io import arrays as arrays_mod
+from bayesirl.io.fields import Table, load_toml
+from bayesirl.io.settings import prior_from, rationality_from, sampler_from
+from bayesirl.model import TabularMDP
+
+TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler"}
+WORLDS = ("map", "arrays", "gym")
+
+
+@dataclass
+class Problem:
+    """Everything a problem file describes, checked.
+
+    Attributes
+    ----------
+    mdp : TabularMDP
+    action_names : tuple of str or None
+        Names usable in demonstration files (indices always work).
+    prior : prior object for the weights
+    rationality : float (fixed) or LogNormal (sampled)
+    pin : dict of pinned weights (needed when the rationality is sampled)
+    demonstrator : "soft" or "optimal" (the Q the Boltzmann policy uses)
+    sampler : keyword arguments for :func:`bayesirl.sample`
+    source : the problem file
+    blocked : states that demonstrations may never visit (blocked map cells)
+    """
+
+    mdp: TabularMDP
+    action_names: tuple[str, ...] | None
+    prior: object
+    rationality: object
+    pin: dict
+    demonstrator: str
+    sampler: dict
+    source: Path
+    title: str = ""
+    world: str = "arrays"
+    blocked: frozenset = field(default_factory=frozenset)
+
+    def action_index(self, name: str) -> int | None:
+        """The index of an action given by name or by a decimal index, else None."""
+        names = self.action_names or ()
+        if name in names:
+            return names.index(name)
+        if name.strip().lstrip("-").isdigit():
+            a = int(name)
+            return a if 0 <= a < self.mdp.n_actions else None
+        return None
+
+    def action_label(self, a: int) -> str:
+        """Name of action ``a`` (its index when actions are unnamed)."""
+        return self.action_names[a] if self.action_names else str(a)
+
+    def state_label(self, s: int) -> str:
+        """``(row, col)`` on a map, else the index."""
+        if self.mdp.grid_shape and s < self.mdp.grid_shape[0] * self.mdp.grid_shape[1]:
+            return str(divmod(int(s), self.mdp.grid_shape[1]))
+        return str(int(s))
+
+
+def read_problem(path) -> Problem:
+    """Read and check a problem file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file; files it names are relative to its folder.
+
+    Returns
+    -------
+    Problem
+
+    Raises
+    ------
+    InputError
+        Naming the file, the table and key, the bad value and what was expected.
+    """
+    path = Path(path)
+    top = Table(load_toml(path), path, "")
+    top.only(TOP_KEYS)
+    worlds = [w for w in WORLDS if w in top]
+    if len(worlds) != 1:
+        raise InputError(f"{path}: found {len(worlds)} world tables "
+                         f"({', '.join(f'[{w}]' for w in worlds) or 'none'}); expected exactly "
+                         "one of [map], [arrays] or [gym]")
+    world = worlds[0]
+    model = top.table("model", {})
+    model.only({"discount", "horizon", "demonstrator"})
+    horizon = model.integer("horizon", None, low=1) if "horizon" in model else None
+    if horizon is None:
+        discount = model.number("discount", 0.95, low=0.0, high=1.0, high_open=True)
+    else:
+        discount = model.number("discount", 1.0, low=0.0, high=1.0)
+    demonstrator = model.string("demonstrator", "soft", choices=("soft", "optimal"))
+    build = {"map": arrays_mod.from_map, "arrays": arrays_mod.from_arrays,
+             "gym": arrays_mod.from_gym}[world]
+    parts = build(top.table(world))
+    try:
+        mdp = TabularMDP(parts.transitions, parts.features, discount=discount, horizon=horizon,
+                         start=parts.start, feature_names=parts.feature_names,
+                         grid_shape=parts.grid_shape)
+    except InputError as err:
+        origin = f" {parts.origin}" if parts.origin else ""
+        raise InputError(f"{path}: [{world}]{origin} {err}") from None
+    names = tuple(parts.action_names) if parts.action_names else None
+    if names is not None and len(names) != mdp.n_actions:
+        raise InputError(f"{path}: [{world}] actions: {len(names)} names for "
+                         f"{mdp.n_actions} actions")
+    features = list(mdp.feature_names)
+    rationality, pin = rationality_from(top.table("rationality", {}), features)
+    return Problem(
+        mdp=mdp, action_names=names, prior=prior_from(top.table("prior", {}), features),
+        rationality=rationality, pin=pin, demonstrator=demonstrator,
+        sampler=sampler_from(top.table("sampler", {})), source=path,
+        title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
+    )

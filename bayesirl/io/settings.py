@@ -1,0 +1,92 @@
+"""The ``[prior]``, ``[rationality]`` and ``[sampler]`` tables of a problem file."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.io.fields import Table
+from bayesirl.priors import DEFAULT_SCALE, PRIORS, LogNormal
+
+# Weight priors by name and the parameters each takes (with defaults).
+WEIGHT_PRIORS = {"normal": {"loc": 0.0, "scale": DEFAULT_SCALE},
+                 "laplace": {"loc": 0.0, "scale": 1.0},
+                 "uniform": {"low": -1.0, "high": 1.0}}
+SAMPLER_KEYS = {"chains": 4, "draws": 1000, "warmup": 1000, "seed": 0}
+
+
+def _per_feature(table: Table, key: str, default: float, features: list[str]):
+    """A number, or a list with one number per feature."""
+    v = table.data.get(key, default)
+    if isinstance(v, list):
+        ok = len(v) == len(features) and all(
+            isinstance(x, int | float) and not isinstance(x, bool) and np.isfinite(x) for x in v)
+        if not ok:
+            raise table.fail(key, v, f"a number or a list of {len(features)} finite numbers "
+                                     f"(one per feature: {', '.join(features)})")
+        return np.asarray(v, dtype=np.float64)
+    return table.number(key, default)
+
+
+def prior_from(table: Table, features: list[str]):
+    """The prior on the weights (default: normal with scale 5)."""
+    kind = table.data.get("kind", "normal")
+    if kind not in WEIGHT_PRIORS:
+        raise table.fail("kind", kind, "one of " + ", ".join(repr(k) for k in WEIGHT_PRIORS))
+    params = WEIGHT_PRIORS[kind]
+    table.only({"kind", *params})
+    values = {k: _per_feature(table, k, d, features) for k, d in params.items()}
+    if "scale" in values and np.any(np.asarray(values["scale"]) <= 0):
+        raise table.fail("scale", table.data["scale"], "a positive number (or one per feature)")
+    prior = PRIORS[kind](**values)
+    try:
+        prior.params(len(features))
+    except InputError as err:
+        raise InputError(f"{table.file}: [{table.name}] {err}") from None
+    return prior
+
+
+def rationality_from(table: Table, features: list[str]) -> tuple[object, dict]:
+    """``value = b`` (fixed, default 1) or ``log_mean``/``log_sd`` + ``pin`` (sampled)."""
+    table.only({"value", "log_mean", "log_sd", "pin"})
+    sampled = "log_mean" in table or "log_sd" in table
+    pin = {}
+    if "pin" in table:
+        pins = table.table("pin")
+        for name, v in pins.data.items():
+            if name not in features:
+                raise InputError(f"{pins.where(name)}: unknown feature; features are "
+                                 f"{', '.join(features)}")
+            if pins.number(name) == 0.0:
+                raise pins.fail(name, v, "a non-zero number (it sets the weights' scale)")
+            pin[name] = float(v)
+    if sampled:
+        if "value" in table:
+            raise InputError(f"{table.where('value')}: give either a fixed value or "
+                             "log_mean/log_sd for a sampled rationality, not both")
+        if len(pin) != 1:
+            raise InputError(
+                f"{table.where('pin')}: a sampled rationality needs exactly one pinned weight, "
+                f"e.g. pin = {{ {features[0]} = 1.0 }}; the demonstrations only see "
+                "rationality * weights")
+        prior = LogNormal(table.number("log_mean", 0.0),
+                          table.number("log_sd", 1.0, low=0.0, low_open=True))
+        return prior, pin
+    value = table.number("value", 1.0, low=0.0, low_open=True)
+    return value, pin
+
+
+def sampler_from(table: Table) -> dict:
+    """Keyword arguments for :func:`bayesirl.sample`."""
+    table.only({*SAMPLER_KEYS, "method", "target_accept", "max_depth", "dense_mass"})
+    out = {"chains": table.integer("chains", 4, low=1), "draws": table.integer("draws", 1000,
+                                                                               low=1),
+           "warmup": table.integer("warmup", 1000, low=0), "seed": table.integer("seed", 0,
+                                                                                 low=0),
+           "method": table.string("method", "nuts", choices=("nuts", "random-walk")),
+           "max_depth": table.integer("max_depth", 10, low=1),
+           "dense_mass": table.boolean("dense_mass", False)}
+    if "target_accept" in table:
+        out["target_accept"] = table.number("target_accept", low=0.0, high=1.0, low_open=True,
+                                            high_open=True)
+    return out

@@ -1,0 +1,124 @@
+"""The bundled examples of ``bayesirl example``: problem files and simulated demonstrations.
+
+Each example writes a problem file and a demonstration file into a folder. The demonstrations
+are simulated from known weights with a fixed seed, so the files are the same on every machine
+(the copies under ``examples/`` in the repository are these files). Invented data throughout.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import NamedTuple
+
+import numpy as np
+
+from bayesirl.files import atomic_target, write_text
+from bayesirl.io import read_problem, write_demonstrations
+from bayesirl.model import simulate
+from bayesirl.scenarios.machine import MACHINE_WEIGHTS, machine_arrays
+from bayesirl.scenarios.park import PARK, PARK_WEIGHTS, SLIP
+
+# Small sampler settings keep a bundled example to seconds on two cores; the write-ups say so.
+EXAMPLE_SAMPLER = "chains = 4\ndraws = 600\nwarmup = 400\nseed = 0\n"
+
+
+def _park_map() -> str:
+    rows = list(PARK)
+    rows[0] = "S" + rows[0][1:]  # the walkers' start, a plain cell like "."
+    return "\n".join(rows)
+
+
+PARK_TOML = f'''# bayesirl problem: a walker crossing a small park (invented data for the example).
+title = "park walks"
+
+[model]
+discount = 0.9
+demonstrator = "soft"
+
+[map]
+features = ["mud", "slope", "shade", "water"]
+moves = 4
+slip = {SLIP}
+cells = """
+{_park_map()}
+"""
+
+[map.legend]
+"." = {{}}
+"S" = {{ start = true }}
+"m" = {{ mud = 1 }}
+"s" = {{ slope = 1 }}
+"t" = {{ shade = 1 }}
+"W" = {{ water = 1, goal = true }}
+
+[prior]
+kind = "normal"
+scale = 5.0
+
+[rationality]
+value = 1.0
+
+[sampler]
+{EXAMPLE_SAMPLER}'''
+
+MACHINE_TOML = f'''# bayesirl problem: when to replace a wearing machine (invented data).
+title = "machine replacement"
+
+[model]
+discount = 0.9
+demonstrator = "soft"
+
+[arrays]
+npz = "machine.npz"
+feature_names = ["wear", "replacement"]
+actions = ["keep", "replace"]
+
+[prior]
+kind = "normal"
+scale = 5.0
+
+[rationality]
+value = 1.0
+
+[sampler]
+{EXAMPLE_SAMPLER}'''
+
+
+class Example(NamedTuple):
+    """A bundled example: what it shows and how to write its files."""
+
+    name: str
+    summary: str
+    write: Callable[[Path], tuple[Path, Path]]
+
+
+def _write_park(folder: Path) -> tuple[Path, Path]:
+    problem_path = write_text(folder / "park.toml", PARK_TOML)
+    problem = read_problem(problem_path)
+    demos = simulate(problem.mdp, PARK_WEIGHTS, episodes=40, length=15, seed=1)
+    return problem_path, write_demonstrations(folder / "walks.csv", demos, problem,
+                                              [f"walk-{k + 1}" for k in range(40)])
+
+
+def _write_machine(folder: Path) -> tuple[Path, Path]:
+    p, phi = machine_arrays()
+    start = np.zeros(p.shape[0])
+    start[0] = 1.0
+    folder.mkdir(parents=True, exist_ok=True)
+    with atomic_target(folder / "machine.npz") as tmp, open(tmp, "wb") as fh:
+        np.savez(fh, transitions=p, features=phi, start=start)
+    problem_path = write_text(folder / "machine.toml", MACHINE_TOML)
+    problem = read_problem(problem_path)
+    demos = simulate(problem.mdp, MACHINE_WEIGHTS, episodes=30, length=40, seed=2)
+    return problem_path, write_demonstrations(folder / "operators.jsonl", demos, problem,
+                                              [f"machine-{k + 1}" for k in range(30)])
+
+
+EXAMPLES = {
+    "park": Example("park", "a walker's routes across a park grid with mud, slopes, shade "
+                            "and a water fountain (4 features, 42 cells)", _write_park),
+    "machine": Example("machine", "when to replace a machine as it wears: keep or replace "
+                                  "at 10 wear levels (a dynamic discrete choice)",
+                       _write_machine),
+}

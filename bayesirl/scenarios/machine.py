@@ -1,0 +1,43 @@
+"""An invented scenario: when to replace a machine as it wears (for demos and tests only).
+
+A dynamic discrete-choice problem without a map. Each period an operator sees the wear level
+``x`` (0 = new, ``WEAR_LEVELS - 1`` = worn out) and either keeps the machine, paying a running
+cost that grows with wear, or replaces it at a fixed price. Wear then grows by 0, 1 or 2 levels
+at random; a replaced machine starts again from level 0. Nothing here is measured data.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayesirl.model import TabularMDP
+
+WEAR_LEVELS = 10
+ACTIONS = ("keep", "replace")
+FEATURES = ("wear", "replacement")
+# Probability that wear grows by 0, 1 or 2 levels in one period (invented).
+WEAR_STEPS = (0.35, 0.45, 0.2)
+# Weights used to simulate the operator: running a worn-out machine costs 6 a period, a
+# replacement 4, so replacing becomes likelier than keeping from about wear level 3.
+MACHINE_WEIGHTS = np.array([-6.0, -4.0])
+
+
+def machine_arrays(levels: int = WEAR_LEVELS) -> tuple[np.ndarray, np.ndarray]:
+    """Transitions ``(S, A, S)`` and state-action features ``(S, A, F)``."""
+    p = np.zeros((levels, 2, levels))
+    for x in range(levels):
+        for a, origin in ((0, x), (1, 0)):  # replacing restarts the wear from level 0
+            for k, q in enumerate(WEAR_STEPS):
+                p[x, a, min(origin + k, levels - 1)] += q
+    phi = np.zeros((levels, 2, 2))
+    phi[:, 0, 0] = np.arange(levels) / (levels - 1)  # running cost grows linearly with wear
+    phi[:, 1, 1] = 1.0
+    return p, phi
+
+
+def machine_mdp(discount: float = 0.9, levels: int = WEAR_LEVELS) -> TabularMDP:
+    """The replacement problem; every machine starts new."""
+    p, phi = machine_arrays(levels)
+    start = np.zeros(levels)
+    start[0] = 1.0
+    return TabularMDP(p, phi, discount=discount, start=start, feature_names=FEATURES)
