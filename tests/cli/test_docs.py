@@ -1,4 +1,4 @@
-"""The file-format examples in docs/cli-and-files.md are read by the readers they document."""
+"""The file-format examples in README.md are read by the readers they document."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from bayesirl.scenarios.bundled import EXAMPLES
 
 from .helpers import REPO
 
-DOC = (REPO / "docs" / "cli-and-files.md").read_text()
+DOC = (REPO / "README.md").read_text()
 
 
 def blocks(lang: str) -> list[str]:
