@@ -23,7 +23,8 @@ class Interrupted(KeyboardInterrupt):
     Attributes
     ----------
     posterior : Posterior
-        The draws so far (``posterior.complete`` is False), every chain cut to the shortest.
+        The draws so far (``posterior.complete`` is False): the chains past warmup, cut
+        to the shortest (``settings["chains_kept"]``); zero draws if all are in warmup.
     checkpoint : pathlib.Path or None
         Where the state was saved (resume with ``sample(..., checkpoint=..., resume=True)``).
     signal : int or None

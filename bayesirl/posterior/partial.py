@@ -72,23 +72,27 @@ def finish(model, records: list[ChainRecord | None], settings: dict, seed: int,
                                           wall_time=wall_time, chain_times=times)
         posterior.warn()  # every run is checked; failures are printed, never silent
         return posterior
-    n = min(len(r.draws) for r in results)
-    cut = [r._replace(draws=r.draws[:n], stats={k: v[:n] for k, v in r.stats.items()})
-           for r in results]
+    # Chains still in warmup (or not started, as in a serial run) are left out; the others
+    # are cut to the shortest, since a Posterior holds equally long chains.
+    kept = [k for k, r in enumerate(results) if len(r.draws)] or list(range(len(results)))
+    n = min(len(results[k].draws) for k in kept)
+    cut = [results[k]._replace(draws=results[k].draws[:n],
+                               stats={s: v[:n] for s, v in results[k].stats.items()})
+           for k in kept]
     done = [int(r.meta["iteration"]) if r is not None else 0 for r in records]
     partial = Posterior.from_chains(
-        model, cut, {**settings, "iterations_done": done}, seed=seed, wall_time=wall_time,
-        chain_times=times, complete=False)
-    raise Interrupted(_message(signum, n, settings, done, book.path), partial, book.path,
-                      signum)
+        model, cut, {**settings, "iterations_done": done, "chains_kept": kept}, seed=seed,
+        wall_time=wall_time, chain_times=[times[k] for k in kept], complete=False)
+    raise Interrupted(_message(signum, n, kept, settings, done, book.path), partial,
+                      book.path, signum)
 
 
-def _message(signum, n, settings, done, path) -> str:
+def _message(signum, n, kept, settings, done, path) -> str:
     name = signal.Signals(signum).name if signum else "a stop request"
     total = settings["warmup"] + settings["draws"]
     where = (f"state saved to {path}; continue with sample(..., checkpoint={str(path)!r}, "
              "resume=True)" if path is not None else "no checkpoint was requested")
-    kept = (f"{n} of {settings['draws']} draws per chain kept" if n else
-            "no draws kept yet (a chain is still in warmup)")
+    kept = (f"{n} of {settings['draws']} draws kept in {len(kept)} chain(s)" if n else
+            "no draws kept yet (every chain is still in warmup)")
     return (f"sampling stopped by {name} after {min(done)}-{max(done)} of {total} iterations "
             f"per chain; {kept}; {where}")

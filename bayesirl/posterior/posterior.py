@@ -103,6 +103,8 @@ class Posterior:
 
     def summary(self, level: float = 0.9) -> str:
         """A compact table: mean, sd, equal-tailed interval, R-hat, bulk/tail ESS."""
+        if self.n_draws == 0:  # an interrupted run that had not finished warmup
+            return f"{self.n_chains} chains x 0 draws ({self.settings['method']}): no draws yet"
         d = self.diagnostics
         lo, hi = 50 * (1 - level), 50 * (1 + level)
         cols = [self.weights[..., i] for i in range(self.weights.shape[-1])]

@@ -97,8 +97,9 @@ def sample(
     bayesirl.Interrupted
         On SIGINT or SIGTERM: sampling stops within about a second, the state is saved to
         ``checkpoint`` (if given), and the exception carries ``.posterior`` with the draws
-        so far (``complete=False``; every chain cut to the shortest; no draws while any
-        chain is still in warmup) and ``.checkpoint``. The previous signal handlers are
+        so far (``complete=False``: chains still in warmup or not started are left out,
+        ``settings["chains_kept"]`` lists the others, each cut to the shortest; zero draws
+        if every chain is still in warmup) and ``.checkpoint``. The previous signal handlers are
         back in place when it is raised.
     InputError
         Bad arguments, or a checkpoint that is missing or belongs to another run.
