@@ -30,8 +30,8 @@ INIT_RADIUS = 2.0
 _INIT_TRIES = 100
 _LIK = "lik."  # prefix of the likelihood's warm-start arrays in a record
 
-# Set by tests only (inherited by forked workers): see interrupt.TestStop.
-TEST_STOP: interrupt.TestStop | None = None
+# Set by tests only (inherited by forked workers): see interrupt.StopHook.
+TEST_STOP: interrupt.StopHook | None = None
 
 
 class ChainRecord(NamedTuple):

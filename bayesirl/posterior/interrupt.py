@@ -23,7 +23,7 @@ class StopRequested(Exception):
     """Raised inside a log-density call when the run is to stop (never escapes sample)."""
 
 
-class TestStop(NamedTuple):
+class StopHook(NamedTuple):
     """Internal hook for tests: act as if a signal arrived in chain ``chain`` after
     ``iteration`` completed iterations or at its ``evaluation``-th density call."""
 

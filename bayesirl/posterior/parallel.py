@@ -36,7 +36,7 @@ def _worker(w, jobs, blob, settings, saved, stopper, q, interval) -> None:
                 q.put((kind, chain, payload))
 
             record = run_job(blob, k, seed, settings, saved[k], stopper, emit, interval)
-            q.put(("final", k, (record, stopper.stopped)))
+            q.put(("final", k, (record, stopper.stopped, stopper.signum)))
     except BaseException as exc:  # noqa: BLE001 - everything goes to the parent
         q.put(("error", w, _portable(exc)))
     finally:
@@ -86,11 +86,11 @@ def run_parallel(blob, seeds, settings, saved, n_proc, stopper: Stopper, on_mess
                 errors.append(payload)
                 stopper.request()
             elif kind == "final":
-                record, stopped = payload
+                record, stopped, signum = payload
                 if record is not None:
                     finals[k] = record
                 if stopped:
-                    stopper.request()
+                    stopper.request(signum)
             on_message(kind, k, payload)
     finally:
         _reap(procs)

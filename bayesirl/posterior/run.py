@@ -142,5 +142,5 @@ def _run_serial(blob, seeds, settings, saved, stopper, book, interval):
         record = run_job(blob, k, s, settings, saved[k], stopper, book.on_message, interval)
         if record is not None:
             records[k] = record
-            book.on_message("final", k, (record, stopper.stopped))
+            book.on_message("final", k, (record, stopper.stopped, stopper.signum))
     return records
