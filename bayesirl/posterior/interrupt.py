@@ -13,10 +13,12 @@ from __future__ import annotations
 import os
 import signal
 import threading
+import time
 from collections.abc import Callable
 from typing import Any, NamedTuple
 
 SIGNALS = (signal.SIGINT, signal.SIGTERM)
+FORCE_AFTER = 1.0  # seconds after a first Ctrl-C from which a second one aborts at once
 
 
 class StopRequested(Exception):
@@ -39,6 +41,7 @@ class Stopper:
         self.signum: int | None = None
         self.requested = False
         self.parent = os.getpid()  # a worker compares its parent with this
+        self._since = 0.0
         self._previous: dict[int, Any] = {}
 
     @property
@@ -57,6 +60,15 @@ class Stopper:
         self.requested = True
 
     def _handle(self, signum, frame) -> None:
+        # A second Ctrl-C a while after the first means the graceful stop is stuck (one
+        # very long density evaluation): abort in the main process. The checkpoint on disk
+        # is then the last periodic one, never a half-written file. Quick double presses
+        # still stop gracefully, and workers only ever set their flag.
+        if (self.requested and signum == signal.SIGINT and os.getpid() == self.parent
+                and time.monotonic() - self._since > FORCE_AFTER):
+            raise KeyboardInterrupt
+        if not self.requested:
+            self._since = time.monotonic()
         self.request(signum)
 
     def install(self) -> bool:
