@@ -50,13 +50,15 @@ class Stopper:
         if self.requested:
             return True
         if os.getpid() != self.parent and os.getppid() != self.parent:
-            self.requested = True
+            self.request()
         return self.requested
 
     def request(self, signum: int | None = None) -> None:
         """Ask the run to stop (what the signal handler does)."""
         if self.signum is None:
             self.signum = signum
+        if not self.requested:
+            self._since = time.monotonic()
         self.requested = True
 
     def _handle(self, signum, frame) -> None:
@@ -67,8 +69,6 @@ class Stopper:
         if (self.requested and signum == signal.SIGINT and os.getpid() == self.parent
                 and time.monotonic() - self._since > FORCE_AFTER):
             raise KeyboardInterrupt
-        if not self.requested:
-            self._since = time.monotonic()
         self.request(signum)
 
     def install(self) -> bool:
