@@ -18,7 +18,32 @@ from posterior.problems import PRIOR, two_feature_likelihood  # noqa: E402
 import bayesirl as bi  # noqa: E402
 from bayesirl.posterior import run  # noqa: E402
 
-RUN = dict(chains=2, draws=500, warmup=300, seed=8, progress=False)
+RUN = dict(chains=2, draws=300, warmup=200, seed=8, progress=False)
+
+
+class Slowed:
+    """The likelihood with a pause before each evaluation: the values are untouched, so
+    the draws are those of the plain run, but the run lasts long enough (about 6 ms per
+    iteration) that a signal sent mid-run cannot arrive after it finished, even when the
+    machine is busy. Same class with ``delay=0`` in the test: same checkpoint fingerprint."""
+
+    def __init__(self, inner, delay: float) -> None:
+        self.inner, self.delay = inner, delay
+
+    def __getattr__(self, name):
+        if name.startswith("__") or name == "inner":
+            raise AttributeError(name)
+        return getattr(self.inner, name)
+
+    def evaluate(self, weights, rationality=None):
+        if self.delay:
+            time.sleep(self.delay)
+        return self.inner.evaluate(weights, rationality)
+
+
+def likelihood(delay: float) -> Slowed:
+    """The two-feature problem, slowed by ``delay`` seconds per evaluation."""
+    return Slowed(two_feature_likelihood(), delay)
 
 
 def children() -> list[int]:
@@ -34,7 +59,7 @@ def main() -> None:
     run.CHECKPOINT_EVERY = 0.2  # the parent waits for the first write before signalling
     report = {"status": "finished"}
     try:
-        bi.sample(two_feature_likelihood(), PRIOR, processes=processes, checkpoint=path, **RUN)
+        bi.sample(likelihood(0.001), PRIOR, processes=processes, checkpoint=path, **RUN)
     except bi.Interrupted as exc:
         report = {"status": "interrupted", "caught_at": time.time(), "signal": exc.signal,
                   "checkpoint": str(exc.checkpoint), "complete": exc.posterior.complete,

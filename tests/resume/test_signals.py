@@ -20,12 +20,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from posterior.problems import PRIOR, two_feature_likelihood
+from posterior.problems import PRIOR
 
 import bayesirl as bi
 from bayesirl.posterior import checkpoint as ckpt
 
-from .signal_child import RUN
+from .signal_child import RUN, likelihood
 
 CHILD = Path(__file__).with_name("signal_child.py")
 ROOT = Path(__file__).resolve().parents[2]
@@ -34,7 +34,7 @@ STOP_WITHIN = 2.0  # seconds from the signal to Interrupted being raised
 
 @cache
 def _reference() -> bi.Posterior:
-    return bi.sample(two_feature_likelihood(), PRIOR, processes=2, **RUN)
+    return bi.sample(likelihood(0.0), PRIOR, processes=2, **RUN)
 
 
 def _progress(path: Path) -> int:
@@ -68,13 +68,15 @@ def _start(tmp_path: Path, processes: int, after: int) -> tuple[subprocess.Popen
 # first two cases stop in the sampling phase, the last at the first checkpoint (usually
 # still in warmup; the deterministic warmup stops are in test_resume.py)
 CASES = {
-    "ctrl-c to the group, parallel": (signal.SIGINT, True, 2, 350),
-    "sigint to the main, serial": (signal.SIGINT, False, 1, 350),
+    "ctrl-c to the group, parallel": (signal.SIGINT, True, 2, 230),
+    "sigint to the main, serial": (signal.SIGINT, False, 1, 230),
     "sigterm to the main, parallel": (signal.SIGTERM, False, 2, 0),
 }
 
 
-@pytest.mark.parametrize("case", list(CASES))
+# The serial case costs another child process; it runs with the slow suites.
+@pytest.mark.parametrize("case", [pytest.param(c, marks=pytest.mark.slow) if "serial" in c
+                                  else c for c in CASES])
 def test_real_signal_stops_cleanly_and_resumes_exactly(tmp_path, case):
     signum, group, processes, after = CASES[case]
     proc, path, partial = _start(tmp_path, processes, after)
@@ -97,7 +99,7 @@ def test_real_signal_stops_cleanly_and_resumes_exactly(tmp_path, case):
     if after > RUN["warmup"]:
         assert n > 0
     assert np.array_equal(saved.weights, reference.weights[kept, :n])
-    resumed = bi.sample(two_feature_likelihood(), PRIOR, processes=processes, checkpoint=path,
+    resumed = bi.sample(likelihood(0.0), PRIOR, processes=processes, checkpoint=path,
                         resume=True, **RUN)
     assert np.array_equal(resumed.weights, reference.weights)
     for key in reference.stats:
