@@ -87,7 +87,8 @@ class Stopper:
     def restore(self) -> None:
         """Put the previous handlers back."""
         for sig, handler in self._previous.items():
-            signal.signal(sig, handler)
+            # None: the previous handler was not set from Python; the default is closest.
+            signal.signal(sig, signal.SIG_DFL if handler is None else handler)
         self._previous = {}
 
     def __enter__(self) -> Stopper:

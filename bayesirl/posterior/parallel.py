@@ -12,6 +12,7 @@ terminal); an error travels to the parent, which raises it.
 from __future__ import annotations
 
 import os
+import pickle
 import queue as queue_mod
 import signal
 import time
@@ -46,8 +47,6 @@ def _worker(w, jobs, blob, settings, saved, stopper, q, interval) -> None:
 
 
 def _portable(exc: BaseException) -> BaseException:
-    import pickle
-
     try:
         pickle.loads(pickle.dumps(exc))
         return exc

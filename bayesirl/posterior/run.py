@@ -15,7 +15,7 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.posterior import checkpoint as ckpt
-from bayesirl.posterior.chains import initial_point, run_job
+from bayesirl.posterior.chains import run_job
 from bayesirl.posterior.interrupt import Stopper
 from bayesirl.posterior.model import PosteriorModel
 from bayesirl.posterior.parallel import run_parallel
@@ -25,7 +25,7 @@ from bayesirl.posterior.progress import ChainProgress
 # Seconds between checkpoint writes (and between state reports from workers).
 CHECKPOINT_EVERY = 2.0
 
-__all__ = ["initial_point", "sample"]
+__all__ = ["sample"]
 
 def _check(chains, draws, warmup, method) -> None:
     for name, v, low in (("chains", chains, 1), ("draws", draws, 1), ("warmup", warmup, 0)):

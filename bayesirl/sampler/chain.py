@@ -7,7 +7,8 @@ window's end, after which the step size is re-initialised and dual averaging res
 The same windows tune random-walk Metropolis: the metric is then the proposal covariance
 shape (the adaptive Metropolis of Haario et al. 2001, updated per window rather than per
 draw) and the step size is the proposal scale, tuned towards acceptance 0.234 (Roberts,
-Gelman & Gilks 1997) by one dual averaging run that is not restarted (see _rwm_kernel).
+Gelman & Gilks 1997) by one dual averaging run that is not restarted (see
+``transitions.rwm_kernel``).
 
 Everything returned is plain NumPy arrays and Python scalars, so a result pickles for
 transfer between processes. The loop itself lives in :mod:`bayesirl.sampler.driver`, which
