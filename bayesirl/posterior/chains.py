@@ -156,4 +156,6 @@ def run_job(blob: bytes, k: int, seed: np.random.SeedSequence, settings: dict,
         if interval is not None and time.monotonic() - last > interval:
             emit("state", k, _record(chain, warm, before + time.perf_counter() - t0))
             last = time.monotonic()
+    # The bar shows where the chain really stopped, not its last throttled update.
+    emit("progress", k, (chain.state.iteration, chain.current_step_size(), divergent))
     return _record(chain, warm, before + time.perf_counter() - t0)
