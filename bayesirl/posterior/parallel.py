@@ -23,19 +23,18 @@ from bayesirl.posterior.chains import run_job
 from bayesirl.posterior.interrupt import Stopper
 
 _POLL = 0.05  # seconds between checks of the stop flag while waiting for messages
-_GRACE = 10.0  # seconds workers get to stop after being told before they are terminated
+_GRACE = 10.0  # seconds workers get to stop after being told, before they are killed
 
 
 def _worker(w, jobs, blob, settings, saved, stopper, q, interval) -> None:
+    def emit(kind, chain, payload):
+        q.put((kind, chain, payload))
+
     try:
         stopper.ensure_installed()
         for k, seed in jobs:
             if stopper.stopped:
                 break
-
-            def emit(kind, chain, payload):
-                q.put((kind, chain, payload))
-
             record = run_job(blob, k, seed, settings, saved[k], stopper, emit, interval)
             q.put(("final", k, (record, stopper.stopped, stopper.signum)))
     except BaseException as exc:  # noqa: BLE001 - everything goes to the parent
@@ -131,5 +130,5 @@ def _reap(procs) -> None:
             continue
         p.join(timeout=2.0)
         if p.is_alive():
-            p.terminate()
+            p.kill()  # SIGKILL: SIGTERM would only set the worker's stop flag again
             p.join()
