@@ -104,3 +104,22 @@ def test_real_signal_stops_cleanly_and_resumes_exactly(tmp_path, case):
     assert np.array_equal(resumed.weights, reference.weights)
     for key in reference.stats:
         assert np.array_equal(resumed.stats[key], reference.stats[key], equal_nan=True), key
+
+
+@pytest.mark.slow
+def test_workers_do_not_outlive_a_killed_parent(tmp_path):
+    # SIGKILL cannot be caught: the workers must notice their parent is gone and stop. They
+    # check at every evaluation; left alone they would run ~3 s more (500 iterations at
+    # ~6 ms), so a 1.5 s deadline fails if they do not notice.
+    proc, _, _ = _start(tmp_path, processes=2, after=1)
+    os.kill(proc.pid, signal.SIGKILL)
+    proc.communicate(timeout=30)
+    deadline = time.monotonic() + 1.5
+    while time.monotonic() < deadline:
+        try:
+            os.killpg(proc.pid, 0)
+        except ProcessLookupError:
+            return  # the group is empty: no orphaned worker
+        time.sleep(0.05)
+    os.killpg(proc.pid, signal.SIGKILL)
+    pytest.fail("chain workers kept running after their parent was killed")
