@@ -93,7 +93,6 @@ def test_signal_handlers_are_restored(tmp_path, monkeypatch):
     def mine(signum, frame):  # a handler of the caller's that sample must put back
         pass
 
-    monkeypatch.setattr(signal, "SIG_TEST_DUMMY", None, raising=False)
     old_int, old_term = signal.signal(signal.SIGINT, mine), signal.signal(signal.SIGTERM, mine)
     try:
         interrupt(monkeypatch, tmp_path / "h.npz", StopHook(0, iteration=5))
