@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from bayesirl.errors import InputError, SolverError
+from bayesirl.errors import InputError, Interrupted, SolverError
 from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
 from bayesirl.model import Demonstrations, TabularMDP, simulate
 from bayesirl.posterior import Posterior, sample
@@ -20,6 +20,7 @@ __all__ = [
     "sample",
     "Demonstrations",
     "InputError",
+    "Interrupted",
     "LikelihoodValue",
     "SolverError",
     "TabularMDP",

@@ -12,7 +12,7 @@ from typing import NamedTuple
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.likelihood import optimal, soft
+from bayesirl.likelihood import optimal, soft, warm
 from bayesirl.likelihood.counts import demo_counts
 
 
@@ -81,6 +81,27 @@ class BoltzmannLikelihood:
     def reset(self) -> None:
         """Forget the warm starts (the next call solves from scratch)."""
         self._cache = self._model.new_cache(self.mdp, self.counts, self.tol)
+
+    def warm_start(self) -> dict:
+        """A snapshot of the warm starts, for :meth:`restore_warm_start` (cheap)."""
+        return {"cache": warm.snapshot(self._cache), "n_evaluations": self.n_evaluations}
+
+    def restore_warm_start(self, snapshot: dict) -> None:
+        """Return to the warm starts of a :meth:`warm_start` snapshot."""
+        self._cache = warm.snapshot(snapshot["cache"])
+        self.n_evaluations = snapshot["n_evaluations"]
+
+    def warm_start_arrays(self) -> dict[str, np.ndarray]:
+        """The warm starts as named arrays, for files (see :mod:`bayesirl.likelihood.warm`)."""
+        out = warm.to_arrays(self._cache)
+        out["n_evaluations"] = np.array(self.n_evaluations)
+        return out
+
+    def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
+        """Inverse of :meth:`warm_start_arrays`: evaluations then continue bit for bit."""
+        fresh = self._model.new_cache(self.mdp, self.counts, self.tol)
+        self._cache = warm.from_arrays(fresh, arrays)
+        self.n_evaluations = int(arrays["n_evaluations"])
 
     def evaluate(self, weights, rationality: float | None = None) -> LikelihoodValue:
         """Log-likelihood with gradients in ``weights`` and ``log(rationality)``."""

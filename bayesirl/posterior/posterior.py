@@ -33,10 +33,11 @@ class Posterior:
     seed : the run's seed (chain ``k`` used child ``k`` of ``SeedSequence(seed)``)
     settings : sampler settings; ``adapted`` holds each chain's step size and inverse mass
     model : the PosteriorModel (likelihood with MDP and demonstrations, prior, rationality, pin)
+    complete : False for the draws so far of an interrupted run (see ``bayesirl.Interrupted``)
     """
 
     def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
-                 seed: int, wall_time: float, chain_times) -> None:
+                 seed: int, wall_time: float, chain_times, complete: bool = True) -> None:
         self.weights = weights
         self.rationality = rationality
         self.stats = stats
@@ -46,11 +47,13 @@ class Posterior:
         self.seed = seed
         self.wall_time = float(wall_time)
         self.chain_times = [float(t) for t in chain_times]
+        self.complete = bool(complete)
         self._diagnostics = None
 
     # -- construction -------------------------------------------------------------------
     @classmethod
-    def from_chains(cls, model, results, settings, seed, wall_time, chain_times) -> Posterior:
+    def from_chains(cls, model, results, settings, seed, wall_time, chain_times,
+                    complete: bool = True) -> Posterior:
         """Assemble from :class:`~bayesirl.sampler.ChainResult` objects (one per chain)."""
         thetas = np.stack([r.draws for r in results])  # (C, D, dim)
         c, d, _ = thetas.shape
@@ -66,7 +69,7 @@ class Posterior:
                     "n_evals": int(r.n_evals)} for r in results]
         settings = {**settings, "adapted": adapted}
         return cls(weights, beta if sampled else None, stats, model, settings, seed,
-                   wall_time, chain_times)
+                   wall_time, chain_times, complete)
 
     # -- summaries ---------------------------------------------------------------------
     @property
@@ -100,6 +103,8 @@ class Posterior:
 
     def summary(self, level: float = 0.9) -> str:
         """A compact table: mean, sd, equal-tailed interval, R-hat, bulk/tail ESS."""
+        if self.n_draws == 0:  # an interrupted run that had not finished warmup
+            return f"{self.n_chains} chains x 0 draws ({self.settings['method']}): no draws yet"
         d = self.diagnostics
         lo, hi = 50 * (1 - level), 50 * (1 + level)
         cols = [self.weights[..., i] for i in range(self.weights.shape[-1])]
@@ -119,7 +124,7 @@ class Posterior:
 
     def __repr__(self) -> str:
         return (f"Posterior(features={list(self.feature_names)}, chains={self.n_chains}, "
-                f"draws={self.n_draws})")
+                f"draws={self.n_draws}{'' if self.complete else ', complete=False'})")
 
     # -- ArviZ and files ---------------------------------------------------------------
     def to_arviz(self) -> az.InferenceData:
@@ -139,6 +144,7 @@ class Posterior:
     def _meta(self) -> dict:
         return {"format": storage.FORMAT, "seed": self.seed, "wall_time": self.wall_time,
                 "chain_times": self.chain_times, "settings": self.settings,
+                "complete": self.complete,
                 "model": self.model.spec(), "problem": storage.problem_meta(self.model)}
 
     def save(self, path) -> Path:
@@ -155,4 +161,4 @@ class Posterior:
         post = idata.posterior
         beta = post["rationality"].values if "rationality" in post else None
         return cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
-                   meta["wall_time"], meta["chain_times"])
+                   meta["wall_time"], meta["chain_times"], meta.get("complete", True))

@@ -1,66 +1,31 @@
-"""``sample``: chains in parallel processes, each with its own warm-started likelihood."""
+"""``sample``: chains in parallel processes, each with its own warm-started likelihood.
+
+With ``checkpoint`` the run can be interrupted (SIGINT, SIGTERM) and resumed to exactly the
+draws of an uninterrupted run; see docs/checkpoints.md for the design.
+"""
 
 from __future__ import annotations
 
 import os
 import pickle
-import queue as queue_mod
 import time
-from concurrent.futures import ProcessPoolExecutor
-from multiprocessing import get_context
+from pathlib import Path
 
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.posterior import checkpoint as ckpt
+from bayesirl.posterior.chains import run_job
+from bayesirl.posterior.interrupt import Stopper
 from bayesirl.posterior.model import PosteriorModel
-from bayesirl.posterior.posterior import Posterior
+from bayesirl.posterior.parallel import run_parallel
+from bayesirl.posterior.partial import Book, finish
 from bayesirl.posterior.progress import ChainProgress
-from bayesirl.sampler import run_chain
 
-# Stan's initialisation: uniform on (-2, 2) in the unconstrained space (common practice).
-INIT_RADIUS = 2.0
-_INIT_TRIES = 100
+# Seconds between checkpoint writes (and between state reports from workers).
+CHECKPOINT_EVERY = 2.0
 
-
-def _initial_point(model: PosteriorModel, rng: np.random.Generator) -> np.ndarray:
-    for _ in range(_INIT_TRIES):
-        theta = rng.uniform(-INIT_RADIUS, INIT_RADIUS, size=model.dim)
-        value, grad = model(theta)
-        if np.isfinite(value) and np.all(np.isfinite(grad)):
-            return theta
-    raise InputError(f"no finite log-posterior found in {_INIT_TRIES} initial points")
-
-
-def _run_one(blob: bytes, chain: int, seed: np.random.SeedSequence, settings: dict, sink=None):
-    """One chain from a pickled model (a fresh, cold likelihood, as in a worker process)."""
-    model = pickle.loads(blob)
-    init_seed, chain_seed = seed.spawn(2)
-    theta0 = _initial_point(model, np.random.default_rng(init_seed))
-    total = settings["draws"] + settings["warmup"]
-    every = max(1, total // 200)
-    divergent = 0
-
-    def callback(i, info):
-        nonlocal divergent
-        divergent += int(getattr(info, "divergent", False))
-        if sink is not None and (i % every == 0 or i == total - 1):
-            sink(chain, i + 1, float(getattr(info, "step_size", np.nan)), divergent)
-
-    t0 = time.perf_counter()
-    density = model.logdensity if settings["method"] == "random-walk" else model
-    result = run_chain(
-        density, theta0, settings["draws"], settings["warmup"], chain_seed,
-        method=settings["method"], dense_mass=settings["dense_mass"],
-        target_accept=settings["target_accept"], max_depth=settings["max_depth"],
-        callback=callback,
-    )
-    return result, time.perf_counter() - t0
-
-
-def _worker(blob, chain, seed, settings, q):
-    sink = None if q is None else (lambda *row: q.put(row))
-    return _run_one(blob, chain, seed, settings, sink)
-
+__all__ = ["sample"]
 
 def _check(chains, draws, warmup, method) -> None:
     for name, v, low in (("chains", chains, 1), ("draws", draws, 1), ("warmup", warmup, 0)):
@@ -85,7 +50,9 @@ def sample(
     target_accept: float | None = None,
     max_depth: int = 10,
     processes: int | None = None,
-) -> Posterior:
+    checkpoint: str | Path | None = None,
+    resume: bool = False,
+):
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
     Parameters
@@ -112,65 +79,68 @@ def sample(
         NUTS settings (defaults 0.8 and 10).
     processes : int, optional
         Worker processes; default ``min(chains, cpu count)``; 1 runs in this process.
+    checkpoint : str or Path, optional
+        File (``.npz``) that receives every chain's full sampler state every few seconds
+        and when the run stops or ends; written atomically. Without ``resume`` an existing
+        file is replaced by the new run's.
+    resume : bool
+        Continue from ``checkpoint`` (which must exist and come from a run with the same
+        problem, prior, seed, chains and settings): the result is bit-identical to an
+        uninterrupted run. A finished checkpoint returns its posterior at once.
 
     Returns
     -------
     Posterior
+
+    Raises
+    ------
+    bayesirl.Interrupted
+        On SIGINT or SIGTERM: sampling stops within about a second, the state is saved to
+        ``checkpoint`` (if given), and the exception carries ``.posterior`` with the draws
+        so far (``complete=False``: chains still in warmup or not started are left out,
+        ``settings["chains_kept"]`` lists the others, each cut to the shortest; zero draws
+        if every chain is still in warmup) and ``.checkpoint``. The previous signal handlers are
+        back in place when it is raised.
+    InputError
+        Bad arguments, or a checkpoint that is missing or belongs to another run.
     """
     _check(chains, draws, warmup, method)
+    if resume and checkpoint is None:
+        raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
     model = PosteriorModel(likelihood, prior, rationality, pin)
     settings = {"draws": int(draws), "warmup": int(warmup), "method": method,
                 "dense_mass": bool(dense_mass), "target_accept": target_accept,
                 "max_depth": int(max_depth)}
     seeds = np.random.SeedSequence(seed).spawn(int(chains))
+    path = None if checkpoint is None else Path(checkpoint)
+    run = ckpt.identity(model, settings, seed, chains) if path is not None else None
+    saved = ckpt.load(path, run) if resume else [None] * int(chains)
     blob = pickle.dumps(model)
     n_proc = min(int(chains), os.cpu_count() or 1) if processes is None else int(processes)
     bar = ChainProgress(int(chains), int(draws) + int(warmup), enabled=progress)
+    book = Book(path, run, saved, bar, CHECKPOINT_EVERY)
+    interval = CHECKPOINT_EVERY if path is not None else None
     t0 = time.perf_counter()
-    if n_proc <= 1:
-        results = [_run_one(blob, k, s, settings, bar.update) for k, s in enumerate(seeds)]
-    else:
-        results = _run_parallel(blob, seeds, settings, n_proc, bar)
-    bar.close()
-    posterior = Posterior.from_chains(
-        model, [r for r, _ in results], settings, seed=int(seed),
-        wall_time=time.perf_counter() - t0, chain_times=[t for _, t in results],
-    )
-    posterior.warn()  # every run is checked; failures are printed, never silent
-    return posterior
-
-
-def _run_parallel(blob, seeds, settings, n_proc, bar):
-    # fork where the platform has it: workers inherit the imported, compiled modules and the
-    # caller's script needs no ``if __name__ == "__main__"`` guard (spawn re-imports it).
-    # OpenBLAS registers fork handlers, and we start no numba thread pools.
-    ctx = get_context("fork" if "fork" in _methods() else "spawn")
-    manager = ctx.Manager() if bar.enabled else None
-    q = manager.Queue() if manager else None
-    try:
-        with ProcessPoolExecutor(max_workers=n_proc, mp_context=ctx) as pool:
-            futures = [pool.submit(_worker, blob, k, s, settings, q) for k, s in enumerate(seeds)]
-            while not all(f.done() for f in futures):
-                _drain(q, bar)
-                time.sleep(0.05)
-            _drain(q, bar)
-            return [f.result() for f in futures]
-    finally:
-        if manager is not None:
-            manager.shutdown()
-
-
-def _methods() -> list[str]:
-    from multiprocessing import get_all_start_methods
-
-    return get_all_start_methods()
-
-
-def _drain(q, bar) -> None:
-    if q is None:
-        return
-    while True:
+    with Stopper() as stopper:
         try:
-            bar.update(*q.get_nowait())
-        except queue_mod.Empty:
-            return
+            if n_proc <= 1:
+                records = _run_serial(blob, seeds, settings, saved, stopper, book, interval)
+            else:
+                records = run_parallel(blob, seeds, settings, saved, n_proc, stopper,
+                                       book.on_message, interval)
+        finally:
+            bar.close()
+    return finish(model, records, settings, int(seed), time.perf_counter() - t0, book,
+                  stopper.signum)
+
+
+def _run_serial(blob, seeds, settings, saved, stopper, book, interval):
+    records = list(saved)
+    for k, s in enumerate(seeds):
+        if stopper.stopped:
+            break
+        record = run_job(blob, k, s, settings, saved[k], stopper, book.on_message, interval)
+        if record is not None:
+            records[k] = record
+            book.on_message("final", k, (record, stopper.stopped, stopper.signum))
+    return records

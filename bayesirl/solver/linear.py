@@ -44,6 +44,8 @@ class Preconditioner:
         self.small = False
         self.stale_iterations: float | None = None  # running mean with stale factors
         self.factorisations = 0
+        # What was factored, so a saved sampler state can rebuild the same factors.
+        self.source: tuple[sp.csr_matrix, float] | None = None
 
     def decide(self, matrix: sp.csr_matrix) -> bool:
         """Decide once, from the sparsity pattern, whether factorising is affordable."""
@@ -61,6 +63,42 @@ class Preconditioner:
         # of the symmetric ordering.
         self.lu = spla.splu(system, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0)
         self.factorisations += 1
+        self.source = (matrix, float(discount))
+
+    def copy(self) -> Preconditioner:
+        """A shallow copy: the factors are replaced on refresh, never changed in place."""
+        out = Preconditioner()
+        out.__dict__.update(self.__dict__)
+        return out
+
+    def to_arrays(self) -> dict[str, np.ndarray]:
+        """The state as arrays; the factors as the matrix they came from (see from_arrays)."""
+        nan = float("nan")
+        flags = [nan if self.allowed is None else float(self.allowed), float(self.small),
+                 nan if self.stale_iterations is None else float(self.stale_iterations),
+                 float(self.factorisations)]
+        out = {"flags": np.array(flags)}
+        if self.source is not None:
+            matrix, discount = self.source
+            out.update(indptr=matrix.indptr, indices=matrix.indices, data=matrix.data,
+                       shape=np.array(matrix.shape), discount=np.array(discount))
+        return out
+
+    @classmethod
+    def from_arrays(cls, arrays: dict[str, np.ndarray]) -> Preconditioner:
+        """Inverse of :meth:`to_arrays`; refactoring the same matrix gives the same factors
+        (SuperLU is deterministic), so solves continue bit for bit."""
+        out = cls()
+        allowed, small, stale, count = arrays["flags"].tolist()
+        if "indptr" in arrays:
+            matrix = sp.csr_matrix((arrays["data"], arrays["indices"], arrays["indptr"]),
+                                   shape=tuple(int(n) for n in arrays["shape"]))
+            out.refresh(matrix, float(arrays["discount"]))
+        out.allowed = None if np.isnan(allowed) else bool(allowed)
+        out.small = bool(small)
+        out.stale_iterations = None if np.isnan(stale) else stale
+        out.factorisations = int(count)
+        return out
 
     def fresh_is_cheaper(self, matrix: sp.csr_matrix) -> bool:
         """Predicted: new factors + ~2 iterations beat iterating with the stale ones."""

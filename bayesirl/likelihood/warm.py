@@ -1,0 +1,50 @@
+"""Saving and restoring a likelihood's warm starts, so a resumed sampler continues bit for bit.
+
+The solvers converge to a tolerance from the previous solution, so the last bits of every
+value and gradient depend on the warm start. A sampler that stops and later continues must
+therefore carry the warm starts along. The cache entries are replaced, never changed in
+place, so an in-memory snapshot is a shallow copy; the LU factors of the preconditioner do
+not serialise and are saved as the matrix they were computed from.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayesirl.solver import Preconditioner
+
+# Entries fixed by the problem itself (rebuilt by new_cache); everything else is warm start.
+_CONSTANT = ("rho", "tol")
+
+
+def snapshot(cache: dict) -> dict:
+    """A cheap copy of ``cache`` that later evaluations cannot change."""
+    return {k: (v.copy() if isinstance(v, Preconditioner) else v) for k, v in cache.items()}
+
+
+def to_arrays(cache: dict) -> dict[str, np.ndarray]:
+    """The warm starts as named arrays (an entry that is None is left out)."""
+    out = {}
+    for key, value in cache.items():
+        if key in _CONSTANT or value is None:
+            continue
+        if isinstance(value, Preconditioner):
+            out.update({f"{key}.{k}": v for k, v in value.to_arrays().items()})
+        else:
+            out[key] = np.asarray(value)
+    return out
+
+
+def from_arrays(fresh: dict, arrays: dict[str, np.ndarray]) -> dict:
+    """Inverse of :func:`to_arrays`, on a cache fresh from ``new_cache``."""
+    cache = dict(fresh)
+    for key, value in fresh.items():
+        if key in _CONSTANT:
+            continue
+        if isinstance(value, Preconditioner):
+            prefix = f"{key}."
+            cache[key] = Preconditioner.from_arrays(
+                {k[len(prefix):]: v for k, v in arrays.items() if k.startswith(prefix)})
+        else:
+            cache[key] = arrays[key].copy() if key in arrays else None
+    return cache
