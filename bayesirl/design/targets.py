@@ -28,7 +28,11 @@ def target_values(posterior, weights: np.ndarray, target) -> np.ndarray | None:
         num, den = (part.strip() for part in target.split("/", 1))
         missing = [p for p in (num, den) if p not in names]
         if not missing:
-            return weights[:, names.index(num)] / weights[:, names.index(den)]
+            den_w = weights[:, names.index(den)]
+            if np.any(den_w == 0.0):
+                raise InputError(f"suggest: target {target!r}: the weight {den!r} is 0 in "
+                                 f"{int(np.sum(den_w == 0.0))} draws; the ratio is undefined")
+            return weights[:, names.index(num)] / den_w
     raise InputError(f"suggest: unknown target {target!r}; expected one of {names}, a ratio "
                      f"such as '{names[0]}/{names[-1]}', or 'policy-risk'")
 
