@@ -13,7 +13,8 @@ from .conftest import posterior_from_draws, some_demos, toy_mdp
 @pytest.fixture(scope="module")
 def post():
     mdp = toy_mdp()
-    return posterior_from_draws(mdp, some_demos(mdp, [1.0, 1.0]), np.array([[2.0, 1.0], [1.0, 2.0]]))
+    draws = np.array([[2.0, 1.0], [1.0, 2.0]])
+    return posterior_from_draws(mdp, some_demos(mdp, [1.0, 1.0]), draws)
 
 
 @pytest.mark.parametrize(("kwargs", "match"), [
