@@ -1,8 +1,9 @@
 """Slow suite: do the suggested demonstrations shrink real posteriors more than random ones?
 
 In each of 20 seeded simulations on a small MDP whose states differ in how much they reveal,
-a posterior is sampled from a short demonstration of known weights; the top-k start states
-states each get a fresh demonstration from the true weights, and the posterior is resampled.
+a posterior is sampled from a short demonstration of known weights; the top-k start states from
+``suggest`` and k random start states each get a fresh demonstration from the true weights,
+and the posterior is resampled.
 Realised gain: ``0.5 (logdet Cov_before - logdet Cov_after)``, the information gain of a
 Gaussian approximation (Lindley 1956). Checks: the paired one-sided Wilcoxon signed-rank test
 (scipy.stats.wilcoxon) at p < 0.05, a larger mean, and Spearman's rho (scipy.stats.spearmanr)
