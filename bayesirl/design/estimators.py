@@ -35,19 +35,20 @@ def _weighted_sd(mass, first, second):
     return np.sqrt(np.maximum(second / safe - mean * mean, 0.0)) * (mass > 0)
 
 
-def query_first(policies, states: np.ndarray, g: np.ndarray) -> Scores:
+def query_first(policies, states: np.ndarray, g: np.ndarray, moments=query_moments) -> Scores:
     """Exact information gain of one answer at each state, with its draw-to-draw error.
 
     ``I = H(mean_m pi_m) - mean_m H(pi_m)``. Its influence function is
     ``psi_m = -pi_m . log(pbar) - H_m`` (mean ``I``), so the standard error is
     ``sd(psi) / sqrt(N)``, with ``E psi^2`` from second moments accumulated in one pass.
+    ``moments`` is the accumulating kernel (its numpy twin in the benchmark).
     """
     mdp = policies.mdp
     n_s, n_a, n = mdp.n_states, mdp.n_actions, policies.n
     acc_p = np.zeros((4, n_s, n_a))
     acc_h = np.zeros((2 + n_a, n_s, n_a))
     for m0, block in policies.chunks():
-        query_moments(block, np.ascontiguousarray(g[m0:m0 + block.shape[0]]), acc_p, acc_h)
+        moments(block, np.ascontiguousarray(g[m0:m0 + block.shape[0]]), acc_p, acc_h)
     pbar = acc_p[0] / n
     logp = np.log(np.where(pbar > 0, pbar, 1.0))
     gain = -_xlogx(pbar).sum(axis=1) - acc_h[0, :, 0] / n
@@ -98,7 +99,8 @@ def prev_gain(prev: np.ndarray, outer: np.ndarray) -> np.ndarray:
     return prev[np.arange(prev.shape[0]), outer] - lme
 
 
-def start_given(policies, states, actions, g, prev, outer) -> Scores:
+def start_given(policies, states, actions, g, prev, outer,
+                accumulate=nested_accumulate) -> Scores:
     """Nested Monte-Carlo gain of a simulated demonstration per candidate, given ``prev``.
 
     ``states``/``actions`` ``(C, J, L+1)``/``(C, J, L)`` are demonstrations simulated under
@@ -111,7 +113,7 @@ def start_given(policies, states, actions, g, prev, outer) -> Scores:
     acc = np.zeros((5, n_c, n_j))
     acc[0] = -np.inf
     for m0, block in policies.chunks():
-        nested_accumulate(block, m0, states, actions, prev, outer, g, acc)
+        accumulate(block, m0, states, actions, prev, outer, g, acc)
     lme = acc[0] + np.log(acc[1]) - np.log(n)
     per_j = acc[4] - lme - prev_gain(prev, outer)[None, :]  # (C, J)
     sd_after = _weighted_sd(acc[1], acc[2], acc[3]).mean(axis=1)
