@@ -13,7 +13,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from bayesirl.design.kernels import nested_accumulate, query_moments
+from bayesirl.design.kernels import flat_steps, nested_accumulate, query_moments
 
 
 class Scores(NamedTuple):
@@ -112,8 +112,10 @@ def start_given(policies, states, actions, g, prev, outer,
     n_c, n_j = actions.shape[0], actions.shape[1]
     acc = np.zeros((5, n_c, n_j))
     acc[0] = -np.inf
+    mdp = policies.mdp
+    steps = flat_steps(states, actions, policies.tp, mdp.n_states, mdp.n_actions)
     for m0, block in policies.chunks():
-        accumulate(block, m0, states, actions, prev, outer, g, acc)
+        accumulate(block.reshape(block.shape[0], -1), m0, steps, prev, outer, g, acc)
     lme = acc[0] + np.log(acc[1]) - np.log(n)
     per_j = acc[4] - lme - prev_gain(prev, outer)[None, :]  # (C, J)
     sd_after = _weighted_sd(acc[1], acc[2], acc[3]).mean(axis=1)

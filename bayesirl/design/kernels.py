@@ -69,26 +69,39 @@ def trajectory_loglik_ref(logpol, states, actions):
     return picked.sum(axis=2)
 
 
+def flat_steps(states, actions, tp: int, n_states: int, n_actions: int):
+    """Flat positions ``(t' S + s) A + a`` of each step in a draw's ``(Tp, S, A)`` log-policy.
+
+    ``t' = min(t, Tp - 1)``. One integer per step instead of three lets the accumulating
+    kernel read each draw's log-policy as a single row.
+    """
+    length = actions.shape[-1]
+    t_idx = np.minimum(np.arange(length), tp - 1)
+    return np.ascontiguousarray((t_idx * n_states + states[..., :length]) * n_actions + actions)
+
+
 @njit(cache=True)
-def nested_accumulate(logpol, m0, states, actions, prev, outer, g, acc):  # pragma: no cover
+def nested_accumulate(logpol, m0, steps, prev, outer, g, acc):  # pragma: no cover - compiled
     """Stream one chunk of draws into the nested Monte-Carlo sums of every trajectory.
 
-    For candidate ``c`` and outer sample ``j`` (simulated under draw ``outer[j]``) the joint
+    ``logpol`` is float64 ``(n, Tp * S * A)`` (each draw's log-policy as one row) and
+    ``steps`` int64 ``(C, J, L)`` the :func:`flat_steps` of the simulated demonstrations. For
+    candidate ``c`` and outer sample ``j`` (simulated under draw ``outer[j]``) the joint
     log-likelihood under draw ``m0 + m`` is ``prev[j, m0 + m]`` (earlier picks) plus the
     trajectory's log-probability. ``acc`` is float64 ``(5, C, J)``: running maximum, then
     ``sum e``, ``sum e g``, ``sum e g^2`` with ``e = exp(ll - max)`` (an online log-sum-exp,
     so no draw's term underflows), and the log-likelihood under the simulating draw itself.
-    ``states`` int64 ``(C, J, L + 1)``, ``actions`` int64 ``(C, J, L)``, ``g`` ``(N,)``.
     """
-    n, tp = logpol.shape[0], logpol.shape[1]
-    n_c, n_j, length = actions.shape
+    n = logpol.shape[0]
+    n_c, n_j, length = steps.shape
     for m in range(n):
+        row = logpol[m]
         gm = g[m0 + m]
         for c in range(n_c):
             for j in range(n_j):
                 ll = prev[j, m0 + m]
                 for t in range(length):
-                    ll += logpol[m, min(t, tp - 1), states[c, j, t], actions[c, j, t]]
+                    ll += row[steps[c, j, t]]
                 if outer[j] == m0 + m:
                     acc[4, c, j] = ll
                 top = acc[0, c, j]
@@ -105,13 +118,10 @@ def nested_accumulate(logpol, m0, states, actions, prev, outer, g, acc):  # prag
                     acc[3, c, j] += e * gm * gm
 
 
-def nested_accumulate_ref(logpol, m0, states, actions, prev, outer, g, acc):
+def nested_accumulate_ref(logpol, m0, steps, prev, outer, g, acc):
     """Reference for :func:`nested_accumulate`: whole-chunk arrays, then a merge of the sums."""
     n = logpol.shape[0]
-    n_c, n_j, length = actions.shape
-    tp = logpol.shape[1]
-    t_idx = np.minimum(np.arange(length), tp - 1)
-    ll = logpol[:, t_idx[None, None, :], states[:, :, :length], actions].sum(axis=3)  # (n,C,J)
+    ll = logpol[:, steps].sum(axis=3)  # (n, C, J)
     ll = ll + prev[:, m0:m0 + n].T[:, None, :]
     gm = g[m0:m0 + n][:, None, None]
     hit = (outer >= m0) & (outer < m0 + n)

@@ -11,6 +11,7 @@ import numpy as np
 from scipy.special import logsumexp
 
 from bayesirl.design.kernels import (
+    flat_steps,
     log_policy_from_q,
     log_policy_from_q_ref,
     nested_accumulate,
@@ -56,13 +57,16 @@ def test_nested_accumulate_matches_reference_over_chunks():
     prev = rng.normal(size=(j, n))
     outer = np.array([0, 4, 4, 8])
     g = rng.normal(size=n)
+    steps = flat_steps(states, actions, 1, 6, 3)
+    flat = lp.reshape(n, -1)
+    assert flat[3, steps[1, 2, 4]] == lp[3, 0, states[1, 2, 4], actions[1, 2, 4]]
     accs = []
     for fn in (nested_accumulate, nested_accumulate_ref):
         acc = np.zeros((5, c, j))
         acc[0] = -np.inf
         for m0 in (0, 4, 7):  # uneven chunks
             stop = {0: 4, 4: 7, 7: 9}[m0]
-            fn(np.ascontiguousarray(lp[m0:stop]), m0, states, actions, prev, outer, g, acc)
+            fn(np.ascontiguousarray(flat[m0:stop]), m0, steps, prev, outer, g, acc)
         accs.append(acc)
     np.testing.assert_allclose(accs[0], accs[1], rtol=1e-10, atol=1e-12)
     # The merged sums equal a direct log-sum-exp over all draws.
