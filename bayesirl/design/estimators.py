@@ -115,7 +115,8 @@ def start_given(policies, states, actions, g, prev, outer,
     mdp = policies.mdp
     steps = flat_steps(states, actions, policies.tp, mdp.n_states, mdp.n_actions)
     for m0, block in policies.chunks():
-        accumulate(block.reshape(block.shape[0], -1), m0, steps, prev, outer, g, acc)
+        flat_t = np.ascontiguousarray(block.reshape(block.shape[0], -1).T)
+        accumulate(flat_t, m0, steps, prev, outer, g, acc)
     lme = acc[0] + np.log(acc[1]) - np.log(n)
     per_j = acc[4] - lme - prev_gain(prev, outer)[None, :]  # (C, J)
     sd_after = _weighted_sd(acc[1], acc[2], acc[3]).mean(axis=1)

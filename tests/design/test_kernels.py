@@ -66,7 +66,7 @@ def test_nested_accumulate_matches_reference_over_chunks():
         acc[0] = -np.inf
         for m0 in (0, 4, 7):  # uneven chunks
             stop = {0: 4, 4: 7, 7: 9}[m0]
-            fn(np.ascontiguousarray(flat[m0:stop]), m0, steps, prev, outer, g, acc)
+            fn(np.ascontiguousarray(flat[m0:stop].T), m0, steps, prev, outer, g, acc)
         accs.append(acc)
     np.testing.assert_allclose(accs[0], accs[1], rtol=1e-10, atol=1e-12)
     # The merged sums equal a direct log-sum-exp over all draws.
