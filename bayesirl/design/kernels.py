@@ -160,25 +160,25 @@ def query_moments(logpol, g, acc_p, acc_h):  # pragma: no cover - compiled
     """
     n = logpol.shape[0]
     n_s, n_a = logpol.shape[2], logpol.shape[3]
+    p = np.empty(n_a)
     for m in range(n):
         gm = g[m]
         for s in range(n_s):
             h = 0.0
             for a in range(n_a):
                 lp = logpol[m, 0, s, a]
-                p = np.exp(lp)
-                if p > 0.0:
-                    h -= p * lp
+                p[a] = np.exp(lp)  # one exponential per entry, reused below
+                if p[a] > 0.0:
+                    h -= p[a] * lp
             acc_h[0, s, 0] += h
             acc_h[1, s, 0] += h * h
             for a in range(n_a):
-                p = np.exp(logpol[m, 0, s, a])
-                acc_p[0, s, a] += p
-                acc_p[1, s, a] += h * p
-                acc_p[2, s, a] += p * gm
-                acc_p[3, s, a] += p * gm * gm
+                acc_p[0, s, a] += p[a]
+                acc_p[1, s, a] += h * p[a]
+                acc_p[2, s, a] += p[a] * gm
+                acc_p[3, s, a] += p[a] * gm * gm
                 for b in range(n_a):
-                    acc_h[2 + b, s, a] += p * np.exp(logpol[m, 0, s, b])
+                    acc_h[2 + b, s, a] += p[a] * p[b]
 
 
 def query_moments_ref(logpol, g, acc_p, acc_h):
