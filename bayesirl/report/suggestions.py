@@ -67,15 +67,17 @@ def suggestion_map(posterior, records: list[dict], level: float) -> Figure | Non
     im = ax.imshow(mean, cmap="RdBu", vmin=-top, vmax=top, origin="upper",
                    interpolation="nearest")
     fig.colorbar(im, ax=ax, shrink=0.85, label="posterior-mean reward")
+    # A state suggested twice (a second walk from there) gets one marker with both ranks.
+    marks: dict = {}
     for rank, rec in enumerate(records[:MAP_TOP], start=1):
         cell = _cell_of(rec, rows, cols)
-        if cell is None:
-            continue
+        if cell is not None:
+            marks.setdefault((cell, rec.get("kind")), []).append(str(rank))
+    for ((r, c), kind), ranks in marks.items():
         # Squares ask for one action, circles for a whole demonstration.
-        marker = "s" if rec.get("kind") == "query" else "o"
-        ax.scatter(cell[1], cell[0], s=260, marker=marker, facecolor="white",
-                   edgecolor="#111111", lw=1.5, zorder=3)
-        ax.text(cell[1], cell[0], str(rank), ha="center", va="center", fontsize=8, zorder=4)
+        ax.scatter(c, r, s=260 * len(ranks), marker="s" if kind == "query" else "o",
+                   facecolor="white", edgecolor="#111111", lw=1.5, zorder=3)
+        ax.text(c, r, ",".join(ranks), ha="center", va="center", fontsize=8, zorder=4)
     ax.set_title("top suggestions (1 = first)", fontsize=10)
     ax.set_xlim(-0.5, cols - 0.5)
     ax.set_ylim(rows - 0.5, -0.5)

@@ -41,8 +41,12 @@ def test_bad_records_are_refused():
 
 def test_html_section_has_table_and_map(park):
     post, ranked = park
-    fig = suggestion_map(post, as_records(ranked), 0.9)
-    assert fig is not None and len(fig.axes[0].collections) == 5  # the five top markers
+    recs = as_records(ranked)
+    fig = suggestion_map(post, recs, 0.9)
+    distinct = len({(r["state"], r["kind"]) for r in recs[:5]})
+    assert fig is not None and len(fig.axes[0].collections) == distinct  # one per top cell
+    texts = sorted(x.get_text() for x in fig.axes[0].texts)
+    assert ",".join(texts).replace(",", "") and sum(len(x.split(",")) for x in texts) == 5
     page = render(SimpleNamespace(suggestions=as_records(ranked), posterior=post, level=0.9))
     assert 'id="suggestions"' in page and "data:image/png" in page
     assert page.count("<tr>") == 1 + 15  # header and the first 15 suggestions
