@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from bayesirl.design import Suggestion, suggest
 from bayesirl.errors import InputError, Interrupted, SolverError
 from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
 from bayesirl.model import Demonstrations, TabularMDP, simulate
@@ -25,4 +26,6 @@ __all__ = [
     "SolverError",
     "TabularMDP",
     "simulate",
+    "Suggestion",
+    "suggest",
 ]

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from bayesirl.bench import engine, report, sampler
+from bayesirl.bench import design, engine, report, sampler
 
-SUITES = ("engine", "sampler")
+SUITES = ("engine", "sampler", "design")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -18,4 +18,7 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "sampler" in only:
         log("sampler: ESS per second")
         results["sampler"] = sampler.run(quick=quick, log=log)
+    if "design" in only:
+        log("design: rank all query and start states")
+        results["design"] = design.run(quick=quick, log=log)
     return report.write(results, folder)

@@ -117,6 +117,34 @@ def _fmt(x, spec: str) -> str:
     return "n/a" if x is None or x != x else format(x, spec)
 
 
+def _design_md(d: dict) -> list[str]:
+    lines = [
+        "## Designer: rank every query state and every start state",
+        "",
+        f"Slippery grid, S = {d['states']}, A = {d['actions']}, {d['draws']} draws built around "
+        "a point (`bench/design.py`), exact query-state gains plus nested Monte-Carlo",
+        f"start-state gains ({d['n_outer']} outer samples, demonstrations of {d['length']} "
+        "steps). Plain numpy: the same estimator with the kernels' numpy twins, measured on",
+        f"{d['numpy_draws']} draws and scaled linearly to all draws. Per-draw policy solves "
+        "(warm-started Newton) are timed separately.",
+        "",
+        "| estimator | seconds | peak MB | numpy seconds | numpy / ours "
+        "| solve s/draw | solves, all draws s |",
+        "|---|---|---|---|---|---|---|",
+        f"| ours | {d['seconds']:.2f} | {d['peak_bytes'] / 2**20:.0f} | "
+        f"{d['numpy_seconds']:.1f} | {d['speedup']:.1f}x | {d['solve_seconds_per_draw']:.3f} "
+        f"| {d['solve_seconds_projected']:.0f} |",
+        "",
+        "| target | measured | met |",
+        "|---|---|---|",
+        f"| numpy / ours >= 10x | {d['speedup']:.1f}x | {'yes' if d['speedup'] >= 10 else 'no'} |",
+        f"| peak memory < 2 GB | {d['peak_bytes'] / 2**30:.2f} GB | "
+        f"{'yes' if d['peak_bytes'] < 2 * 2**30 else 'no'} |",
+        "",
+    ]
+    return lines
+
+
 def render(results: dict) -> str:
     """Markdown for every suite present in ``results``."""
     m = results["machine"]
@@ -133,6 +161,8 @@ def render(results: dict) -> str:
         lines += _engine_md(results["engine"])
     if "sampler" in results:
         lines += _sampler_md(results["sampler"])
+    if "design" in results:
+        lines += _design_md(results["design"])
     return "\n".join(lines) + "\n"
 
 

@@ -10,6 +10,7 @@ import numpy as np
 from bayesirl.files import write_json, write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
 from bayesirl.report import derived, structural
+from bayesirl.report.suggestions import as_records
 from bayesirl.report.weights import directions, weights_table
 
 CAUTION = (
@@ -33,6 +34,7 @@ class AmbiguityReport:
     diagnostics: dict
     assumptions: dict
     verdict: str = ""
+    suggestions: list = field(default_factory=list)  # plain records from bayesirl.suggest
     posterior: object = field(default=None, repr=False)
 
     def as_dict(self) -> dict:
@@ -41,7 +43,7 @@ class AmbiguityReport:
                 "directions": self.directions, "structural": self.structural,
                 "derived": self.derived, "policy_risk": self.policy_risk,
                 "diagnostics": self.diagnostics, "assumptions": self.assumptions,
-                "caution": CAUTION}
+                "suggestions": self.suggestions, "caution": CAUTION}
 
     def to_json(self, path) -> Path:
         """Write every number of the report as JSON (atomically)."""
@@ -89,7 +91,7 @@ def _assumptions(posterior) -> dict:
 
 
 def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
-              alpha: float = 0.95) -> AmbiguityReport:
+              alpha: float = 0.95, suggestions=None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
@@ -105,6 +107,9 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
         States at which to report action probabilities.
     alpha : float
         Quantile of the policy-risk bound.
+    suggestions : list, optional
+        The output of :func:`bayesirl.suggest`, stored as plain records (in the JSON and as a
+        section of the HTML page, drawn on the map for grid problems).
     """
     lik = posterior.model.likelihood
     table = weights_table(posterior, level, prior, truth)
@@ -118,7 +123,7 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
                  "action_probabilities": derived.action_probabilities(posterior, states, level)},
         policy_risk=derived.policy_risk(posterior, alpha),
         diagnostics=_diagnostics(posterior), assumptions=_assumptions(posterior),
-        posterior=posterior,
+        suggestions=as_records(suggestions), posterior=posterior,
     )
     report.verdict = headline(report)
     return report

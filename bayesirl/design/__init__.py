@@ -1,0 +1,8 @@
+"""The demonstration designer: which extra demonstrations would narrow the posterior most.
+
+Layer 7 (beside the report): builds on the posterior, the model and the solver.
+"""
+
+from bayesirl.design.suggest import Suggestion, suggest
+
+__all__ = ["Suggestion", "suggest"]

@@ -1,0 +1,217 @@
+"""``suggest(posterior)``: which extra demonstrations would narrow the posterior most."""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from bayesirl.design import estimators as est
+from bayesirl.design.kernels import trajectory_loglik
+from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
+from bayesirl.design.targets import target_values
+from bayesirl.errors import InputError
+from bayesirl.kernels import sample_episodes
+
+KINDS = ("start-states", "query-states")
+
+
+class Suggestion(NamedTuple):
+    """One ranked candidate. ``gain`` and ``stderr`` in nats; sds in the target's units."""
+
+    candidate: object  # state index, or a label "start:3" / "query:5" for explicit lists
+    gain: float  # expected information gain about the weights, given the earlier picks
+    stderr: float  # its Monte-Carlo standard error
+    target_sd: float  # expected posterior sd of the target afterwards (nan without one)
+    target_reduction: float  # current sd minus target_sd (nan without a target)
+    kind: str  # "start" (a whole demonstration) or "query" (one action)
+    state: int
+    step: int  # 1..budget for the greedy picks, 0 for the rest of the ranking
+
+
+def _parse_candidates(candidates, n_states: int) -> tuple[list[str], np.ndarray, bool]:
+    if isinstance(candidates, str):
+        if candidates not in KINDS:
+            raise InputError(f"suggest: unknown candidates {candidates!r}; expected one of "
+                             f"{list(KINDS)} or a list of states")
+        kind = "start" if candidates == "start-states" else "query"
+        return [kind] * n_states, np.arange(n_states, dtype=np.int64), False
+    kinds, states = [], []
+    for k, item in enumerate(list(candidates)):
+        kind, s = "start", item
+        if isinstance(item, str) and ":" in item:
+            kind, s = item.split(":", 1)
+        elif isinstance(item, tuple) and len(item) == 2:
+            kind, s = item
+        try:
+            s_int = int(s)
+        except (TypeError, ValueError):
+            s_int = None
+        if kind not in ("start", "query") or s_int is None or s_int != s and str(s_int) != s:
+            raise InputError(f"suggest: candidates[{k}] = {item!r}; expected a state index, "
+                             "'start:<state>' or 'query:<state>'")
+        if not 0 <= s_int < n_states:
+            raise InputError(f"suggest: candidates[{k}] = {item!r}; state out of range "
+                             f"0..{n_states - 1}")
+        kinds.append(kind)
+        states.append(s_int)
+    if not states:
+        raise InputError("suggest: candidates is an empty list")
+    return kinds, np.asarray(states, dtype=np.int64), True
+
+
+def _demo_length(mdp, demos, length) -> int:
+    if length is None:
+        length = int(np.median(demos.lengths))
+    if int(length) != length or length < 1:
+        raise InputError(f"suggest: length must be a positive integer; got {length!r}")
+    if mdp.horizon is not None and length > mdp.horizon:
+        raise InputError(f"suggest: length {length} exceeds the horizon {mdp.horizon}")
+    return int(length)
+
+
+def _check_budget(budget, n_candidates: int) -> int:
+    if isinstance(budget, bool) or not isinstance(budget, (int, np.integer)) or budget < 1:
+        raise InputError(f"suggest: budget must be an integer >= 1; got {budget!r}")
+    return int(budget)
+
+
+class _Batch:
+    """Outer samples, simulated demonstrations and the log-likelihood of earlier picks."""
+
+    def __init__(self, policies, start_states, length, n_outer, rng) -> None:
+        self.policies = policies
+        n = policies.n
+        self.outer = np.sort(rng.choice(n, size=n_outer, replace=n_outer > n)).astype(np.int64)
+        self.prev = np.zeros((n_outer, n))
+        self.rng = rng
+        c = start_states.shape[0]
+        self.start_states = start_states
+        self.states = np.empty((c, n_outer, length + 1), dtype=np.int64)
+        self.actions = np.empty((c, n_outer, length), dtype=np.int64)
+        if c:
+            self._simulate(np.arange(c))
+
+    def add_start(self, c: int) -> None:
+        """Condition on the simulated demonstrations of start candidate ``c``."""
+        for m0, block in self.policies.chunks():
+            ll = trajectory_loglik(block, self.states[c], self.actions[c])
+            self.prev[:, m0:m0 + block.shape[0]] += ll.T
+        # A second demonstration from the same start is a fresh, independent outcome.
+        self._simulate(np.array([c]))
+
+    def _simulate(self, which: np.ndarray) -> None:
+        tm = self.policies.mdp.transitions
+        starts = np.ascontiguousarray(self.start_states[which])
+        length = self.actions.shape[2]
+        for j, m in enumerate(self.outer):
+            pol = np.exp(self.policies.one(int(m)))
+            u = self.rng.random((which.shape[0], length, 2))
+            s, a = sample_episodes(tm.indptr, tm.indices, tm.data, pol, starts, length, u)
+            self.states[which, j], self.actions[which, j] = s, a
+
+    def add_query(self, state: int) -> None:
+        """Condition on one simulated answer at ``state`` per outer sample."""
+        n_a = self.policies.mdp.n_actions
+        answers = np.empty(self.outer.shape[0], dtype=np.int64)
+        for j, m in enumerate(self.outer):
+            p = np.exp(self.policies.one(int(m))[0, state])
+            answers[j] = min(int(np.searchsorted(np.cumsum(p), self.rng.random())), n_a - 1)
+        for m0, block in self.policies.chunks():
+            self.prev[:, m0:m0 + block.shape[0]] += block[:, 0, state, answers].T
+
+
+def _step_scores(batch, kinds, states, g, first: bool) -> est.Scores:
+    """Scores of every candidate given the picks so far (first step: exact for queries)."""
+    n = states.shape[0]
+    gain, stderr, sd = np.zeros(n), np.zeros(n), np.full(n, np.nan)
+    is_q = np.array([k == "query" for k in kinds])
+    policies = batch.policies
+    gg = np.zeros(policies.n) if g is None else g
+    if is_q.any():
+        q_states = states[is_q]
+        if first:
+            sc = est.query_first(policies, q_states, gg)
+        else:
+            sc = est.query_given(policies, q_states, gg, batch.prev)
+        gain[is_q], stderr[is_q], sd[is_q] = sc
+    if (~is_q).any():
+        sc = est.start_given(policies, batch.states, batch.actions, gg, batch.prev, batch.outer)
+        gain[~is_q], stderr[~is_q], sd[~is_q] = sc
+    if g is None:
+        sd[:] = np.nan
+    return est.Scores(gain, stderr, sd)
+
+
+def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
+            length: int | None = None, n_outer: int = 64, max_draws: int | None = None,
+            chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES) -> list[Suggestion]:
+    """Rank extra demonstrations by how much they are expected to tell about the weights.
+
+    Parameters
+    ----------
+    posterior : Posterior
+    candidates : "start-states", "query-states" or a list
+        ``"start-states"``: a whole demonstration of ``length`` steps from each state;
+        ``"query-states"``: the demonstrator's action at each state (time 0 with a horizon);
+        a list of states (demonstrations) or labels ``"start:<s>"`` / ``"query:<s>"``.
+    budget : int
+        Greedy batch size: pick ``k`` gives its gain given the simulated outcomes of picks
+        ``1..k-1`` (joint outcomes), so redundant candidates are not picked twice.
+    target : None, feature name, ratio ``"a/b"`` or ``"policy-risk"``
+        Also report the expected posterior sd of this quantity after each pick, by
+        importance reweighting of the existing draws.
+    seed : int
+        Seeds the outer samples and the simulated outcomes (``numpy.random.Generator``).
+    length : demonstration length (default: the median demonstrated length).
+    n_outer : outer samples of the nested Monte-Carlo estimate (simulated outcomes).
+    max_draws : use at most this many evenly spaced posterior draws (default: all).
+    chunk_bytes, cache_bytes : memory bounds for the per-draw policies.
+
+    Returns
+    -------
+    list of Suggestion
+        The ``budget`` greedy picks in order (``step`` 1..k), then every other candidate
+        ranked by its gain at the last step (``step`` 0). Query-state gains at the first
+        step are exact over actions given the draws; ``stderr`` is then their error from
+        the finite set of draws (treated as independent). Other gains are nested
+        Monte-Carlo estimates and ``stderr`` is the outer-sample standard error.
+    """
+    lik = posterior.model.likelihood
+    mdp = lik.mdp
+    kinds, states, explicit = _parse_candidates(candidates, mdp.n_states)
+    budget = _check_budget(budget, states.shape[0])
+    length = _demo_length(mdp, lik.demos, length)
+    if int(n_outer) != n_outer or n_outer < 2:
+        raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
+    weights, betas = posterior_draws(posterior, max_draws)
+    g = target_values(posterior, weights, target)
+    policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    rng = np.random.default_rng(seed)
+    start_states = states[np.array([k == "start" for k in kinds], dtype=bool)]
+    batch = _Batch(policies, start_states, length, int(n_outer), rng)
+    sd_now = float(np.std(g, ddof=1)) if g is not None else np.nan
+    start_pos = np.cumsum([k == "start" for k in kinds]) - 1
+    picks: list[Suggestion] = []
+    for step in range(1, budget + 1):
+        sc = _step_scores(batch, kinds, states, g, first=step == 1)
+        order = np.argsort(-sc.gain, kind="stable")
+        best = int(order[0])
+        row = _record(sc, best, kinds, states, explicit, sd_now, step)
+        picks.append(row)
+        if step == budget:
+            rest = [_record(sc, int(i), kinds, states, explicit, sd_now, 0) for i in order[1:]]
+            return picks + rest
+        if kinds[best] == "start":
+            batch.add_start(int(start_pos[best]))
+        else:
+            batch.add_query(int(states[best]))
+    raise AssertionError("unreachable")  # pragma: no cover
+
+
+def _record(sc, i, kinds, states, explicit, sd_now, step) -> Suggestion:
+    label = f"{kinds[i]}:{int(states[i])}" if explicit else int(states[i])
+    sd = float(sc.target_sd[i])
+    return Suggestion(label, float(sc.gain[i]), float(sc.stderr[i]), sd,
+                      sd_now - sd if np.isfinite(sd) else float("nan"), kinds[i],
+                      int(states[i]), step)

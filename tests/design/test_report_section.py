@@ -1,0 +1,54 @@
+"""The report's suggestions: plain records in the JSON, a table and a map in the HTML."""
+
+from __future__ import annotations
+
+import json
+from types import SimpleNamespace
+
+import numpy as np
+import pytest
+
+from bayesirl import InputError, suggest
+from bayesirl.report.ambiguity import AmbiguityReport
+from bayesirl.report.suggestions import as_records, render, suggestion_map
+from bayesirl.scenarios import PARK_WEIGHTS, park_mdp
+
+from .conftest import posterior_from_draws, some_demos
+
+
+@pytest.fixture(scope="module")
+def park():
+    mdp = park_mdp()
+    rng = np.random.default_rng(0)
+    draws = PARK_WEIGHTS + 0.3 * rng.normal(size=(40, 4))  # invented, around the demo weights
+    post = posterior_from_draws(mdp, some_demos(mdp, PARK_WEIGHTS, length=10), draws)
+    return post, suggest(post, "query-states", budget=2, target="mud", n_outer=16)
+
+
+def test_records_are_plain_and_json_ready(park):
+    _, ranked = park
+    recs = as_records(ranked)
+    assert recs[0]["candidate"] == ranked[0].candidate and recs[0]["step"] == 1
+    report = AmbiguityReport(0.9, [], [], [], {}, {}, {}, {}, suggestions=recs)
+    text = json.dumps(report.as_dict(), allow_nan=False)
+    assert json.loads(text)["suggestions"][1]["gain"] == pytest.approx(ranked[1].gain)
+
+
+def test_bad_records_are_refused():
+    with pytest.raises(InputError, match=r"suggestions\[0\]"):
+        as_records([{"gain": 1.0}])
+
+
+def test_html_section_has_table_and_map(park):
+    post, ranked = park
+    recs = as_records(ranked)
+    fig = suggestion_map(post, recs, 0.9)
+    distinct = len({(r["state"], r["kind"]) for r in recs[:5]})
+    assert fig is not None and len(fig.axes[0].collections) == distinct  # one per top cell
+    texts = sorted(x.get_text() for x in fig.axes[0].texts)
+    assert sum(len(x.split(",")) for x in texts) == 5  # every top rank is drawn once
+    page = render(SimpleNamespace(suggestions=as_records(ranked), posterior=post, level=0.9))
+    assert 'id="suggestions"' in page and "data:image/png" in page
+    assert page.count("<tr>") == 1 + 15  # header and the first 15 suggestions
+    empty = render(SimpleNamespace(suggestions=[], posterior=post, level=0.9))
+    assert empty == ""
