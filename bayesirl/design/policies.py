@@ -54,6 +54,7 @@ class DrawPolicies:
         self._cache: dict[int, np.ndarray] = {}
         self._values = None  # warm start: the previous draw's soft values
         self.solves = 0
+        self.on_solve = None  # optional callback(solves so far), e.g. a progress line
 
     def one(self, m: int) -> np.ndarray:
         """Log-policy of draw ``m``: ``(Tp, S, A)``."""
@@ -66,6 +67,8 @@ class DrawPolicies:
         mdp = self.mdp
         reward = self.rationalities[m] * mdp.reward(self.weights[m])
         self.solves += 1
+        if self.on_solve is not None:
+            self.on_solve(self.solves)
         if mdp.horizon is not None:
             sol = mdp.solve(self.weights[m], self.rationalities[m])
             return np.stack([log_policy_from_q(np.ascontiguousarray(q.T)) for q in sol.q])

@@ -12,6 +12,7 @@ from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, pos
 from bayesirl.design.targets import target_values
 from bayesirl.errors import InputError
 from bayesirl.kernels import sample_episodes
+from bayesirl.posterior.progress import StatusLine
 
 KINDS = ("start-states", "query-states")
 
@@ -145,7 +146,8 @@ def _step_scores(batch, kinds, states, g, first: bool) -> est.Scores:
 
 def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
             length: int | None = None, n_outer: int = 64, max_draws: int | None = None,
-            chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES) -> list[Suggestion]:
+            chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES,
+            progress: bool = False) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -167,6 +169,8 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     n_outer : outer samples of the nested Monte-Carlo estimate (simulated outcomes).
     max_draws : use at most this many evenly spaced posterior draws (default: all).
     chunk_bytes, cache_bytes : memory bounds for the per-draw policies.
+    progress : bool
+        A status line (greedy step, per-draw policy solves) on a terminal; never elsewhere.
 
     Returns
     -------
@@ -187,6 +191,25 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     weights, betas = posterior_draws(posterior, max_draws)
     g = target_values(posterior, weights, target)
     policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    status = StatusLine(enabled=progress)
+    try:
+        return _greedy(policies, kinds, states, explicit, budget, length, n_outer, g, seed,
+                       status)
+    finally:
+        status.close()
+
+
+def _greedy(policies, kinds, states, explicit, budget, length, n_outer, g, seed,
+            status) -> list[Suggestion]:
+    """The greedy batch: score every candidate, keep the best, condition on it, repeat."""
+    step = 1
+    n_draws = policies.n
+
+    def show(solves: int) -> None:
+        status.update(f"suggest: pick {step}/{budget}, policy solves {solves} "
+                      f"(draws: {n_draws})")
+
+    policies.on_solve = show
     rng = np.random.default_rng(seed)
     start_states = states[np.array([k == "start" for k in kinds], dtype=bool)]
     batch = _Batch(policies, start_states, length, int(n_outer), rng)
@@ -194,6 +217,7 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     start_pos = np.cumsum([k == "start" for k in kinds]) - 1
     picks: list[Suggestion] = []
     for step in range(1, budget + 1):
+        show(policies.solves)
         sc = _step_scores(batch, kinds, states, g, first=step == 1)
         order = np.argsort(-sc.gain, kind="stable")
         best = int(order[0])

@@ -41,3 +41,29 @@ class ChainProgress:
         """Final redraw."""
         if self.enabled:
             self._draw()
+
+
+class StatusLine:
+    """One status line rewritten in place on a terminal (e.g. the designer's scoring); silent
+    when the stream is not a terminal or ``enabled`` is false."""
+
+    def __init__(self, stream=None, enabled: bool = True) -> None:
+        self.stream = stream if stream is not None else sys.stderr
+        self.enabled = enabled and getattr(self.stream, "isatty", lambda: False)()
+        self._last = 0.0
+        self._text = ""
+
+    def update(self, text: str, force: bool = False) -> None:
+        """Show ``text``; redraw at most ten times a second unless ``force``."""
+        self._text = text
+        now = time.monotonic()
+        if self.enabled and (force or now - self._last > 0.1):
+            self._last = now
+            self.stream.write(f"\r\x1b[2K{text}")
+            self.stream.flush()
+
+    def close(self) -> None:
+        """Final redraw and end the line."""
+        if self.enabled and self._text:
+            self.stream.write(f"\r\x1b[2K{self._text}\n")
+            self.stream.flush()
