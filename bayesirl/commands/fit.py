@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import multiprocessing
 import shlex
 import shutil
 import signal
@@ -22,23 +21,11 @@ EXIT_INTERRUPTED = 130
 OVERRIDES = ("chains", "draws", "warmup", "seed")
 
 
-def can_checkpoint() -> bool:
-    """Whether this installation's sampler saves and resumes checkpoints."""
-    return hasattr(bayesirl, "Interrupted")
-
-
 @contextmanager
 def sigterm_as_interrupt():
-    """SIGTERM stops the run like Ctrl-C (the sampler may install its own handler inside).
-
-    ``kill PID`` reaches this process only, unlike Ctrl-C, which reaches the sampler's worker
-    processes too; without checkpoints they are stopped here, or shutting the pool down would
-    wait for them to finish their chains.
-    """
+    """SIGTERM stops the command like Ctrl-C outside sampling too (while it samples,
+    ``bayesirl.sample`` installs its own handler, which also stops its worker processes)."""
     def handler(signum, frame):
-        if not can_checkpoint():
-            for child in multiprocessing.active_children():
-                child.terminate()
         raise KeyboardInterrupt
 
     try:
@@ -97,16 +84,12 @@ def fit_command(args) -> int:
 
 def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> int:
     kwargs = _sample_kwargs(problem, settings, args.quiet)
-    if can_checkpoint():
-        kwargs["checkpoint"] = run.checkpoint
-        if resume:
-            kwargs["resume"] = True
+    kwargs["checkpoint"] = run.checkpoint
+    kwargs["resume"] = resume
     with sigterm_as_interrupt():
         try:
             posterior = bayesirl.sample(lik, **kwargs)
-        except BaseException as err:  # Interrupted may derive from KeyboardInterrupt
-            if not (can_checkpoint() and isinstance(err, bayesirl.Interrupted)):
-                raise  # without checkpoints a Ctrl-C keeps nothing (the CLI says so)
+        except bayesirl.Interrupted as err:  # a KeyboardInterrupt subclass
             write_results(run, err.posterior, record, complete=False, quiet=True)
             return EXIT_INTERRUPTED
     _remove(run.checkpoint)  # a finished run needs no sampler state
@@ -135,8 +118,6 @@ def resume_command(args) -> int:
     summary = run.read_summary()
     if summary.get("complete"):
         raise InputError(f"{run.root}: the run is already complete; nothing to resume")
-    if not can_checkpoint():
-        raise InputError("this installation's sampler cannot resume checkpoints")
     if not run.checkpoint.exists():
         raise InputError(f"{run.checkpoint}: missing; the run cannot be resumed")
     for key in ("problem", "demonstrations"):
