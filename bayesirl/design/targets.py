@@ -39,13 +39,5 @@ def target_values(posterior, weights: np.ndarray, target) -> np.ndarray | None:
 
 def _policy_risk(posterior, weights: np.ndarray) -> np.ndarray:
     lik = posterior.model.likelihood
-    mdp = lik.mdp
-    # The report's own helpers, so that the designer's target is the report's number.
-    _, pi_hat = derived._optimal(mdp, weights.mean(axis=0))
-    d0 = derived._start_distribution(mdp, lik.demos)
-    out = np.empty(weights.shape[0])
-    greedy = None
-    for m, w in enumerate(weights):
-        v_star, greedy = derived._optimal(mdp, w, greedy if mdp.horizon is None else None)
-        out[m] = max(float(d0 @ (v_star - derived._value_of(mdp, w, pi_hat))), 0.0)
-    return out
+    # The report's own computation, so that the designer's target is the report's number.
+    return derived.policy_losses(lik.mdp, lik.demos, weights, weights.mean(axis=0))[0]

@@ -102,6 +102,35 @@ def _value_of(mdp, w, greedy) -> np.ndarray:
     return v
 
 
+def policy_losses(mdp, demos, weights: np.ndarray,
+                  estimate: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per-draw loss of acting optimally for ``estimate``: ``d0 . (V*_w - V^pi_w)``.
+
+    Parameters
+    ----------
+    mdp, demos : the problem; ``d0`` is its start distribution, else the demonstrations'.
+    weights : array (N, F)
+        Reward weights to evaluate the estimate's policy under.
+    estimate : array (F,)
+
+    Returns
+    -------
+    (losses, fractions) : arrays (N,)
+        The loss in reward units and as a fraction of each draw's optimal-value range.
+    """
+    _, pi_hat = _optimal(mdp, np.asarray(estimate, dtype=float))
+    d0 = _start_distribution(mdp, demos)
+    evd, frac = np.empty(len(weights)), np.empty(len(weights))
+    greedy = None
+    for m, w in enumerate(weights):
+        # Consecutive draws are close: the previous greedy policy warm-starts the next.
+        v_star, greedy = _optimal(mdp, w, greedy if mdp.horizon is None else None)
+        evd[m] = max(float(d0 @ (v_star - _value_of(mdp, w, pi_hat))), 0.0)  # >= 0 up to rounding
+        spread = float(v_star.max() - v_star.min())
+        frac[m] = evd[m] / spread if spread > 0 else 0.0
+    return evd, frac
+
+
 def policy_risk(posterior, alpha: float = 0.95, estimate=None) -> dict:
     """Expected value difference of acting on the estimate, per posterior draw.
 
@@ -111,20 +140,8 @@ def policy_risk(posterior, alpha: float = 0.95, estimate=None) -> dict:
     quantile is a high-confidence bound on the loss (Brown & Niekum 2018).
     """
     lik = posterior.model.likelihood
-    mdp, demos = lik.mdp, lik.demos
     w_hat = flat_draws(posterior).mean(axis=0) if estimate is None else np.asarray(estimate)
-    _, pi_hat = _optimal(mdp, w_hat)
-    d0 = _start_distribution(mdp, demos)
-    evd, frac = [], []
-    greedy = None
-    for w in _thinned(posterior):
-        v_star, greedy = _optimal(mdp, w, greedy if mdp.horizon is None else None)
-        v_hat = _value_of(mdp, w, pi_hat)
-        loss = max(float(d0 @ (v_star - v_hat)), 0.0)  # >= 0 up to solver rounding
-        spread = float(v_star.max() - v_star.min())
-        evd.append(loss)
-        frac.append(loss / spread if spread > 0 else 0.0)
-    evd, frac = np.asarray(evd), np.asarray(frac)
+    evd, frac = policy_losses(lik.mdp, lik.demos, _thinned(posterior), w_hat)
     return {
         "alpha": alpha,
         "estimate": [float(x) for x in w_hat],

@@ -162,3 +162,17 @@ def test_policy_risk_target_runs_and_reduces_on_average():
     # Conditioning cannot raise the expected posterior variance (law of total variance);
     # for the sd this holds by Jensen's inequality up to the outer-sample error.
     assert max(r.target_sd for r in ranked) <= ranked[0].target_sd + ranked[0].target_reduction
+
+
+def test_policy_risk_target_is_the_reports_number():
+    # The designer's "policy-risk" target must be the per-draw loss the report's policy-risk
+    # section shows (one shared computation, report.derived.policy_losses).
+    from bayesirl.design.targets import target_values
+    from bayesirl.report.derived import policy_risk
+
+    mdp = tiny_mdp()
+    draws = np.random.default_rng(5).normal(size=(30, 2))
+    post = posterior_from_draws(mdp, some_demos(mdp, [1.0, -1.0]), draws)
+    ours = target_values(post, draws, "policy-risk")
+    np.testing.assert_allclose(ours, policy_risk(post)["values"], rtol=0, atol=1e-12)
+    assert np.ptp(ours) > 0  # the draws disagree, so the check compares real numbers
