@@ -74,7 +74,7 @@ def _is_client(obj: Any) -> bool:
 
 def _host_port(address: str) -> bool:
     host, sep, port = address.rpartition(":")
-    return bool(sep and host and port.isdigit())
+    return bool(sep and host and port.isdigit() and "/" not in host and " " not in host)
 
 
 def _distributed():

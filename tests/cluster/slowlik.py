@@ -33,3 +33,11 @@ class CountingLikelihood(bi.BoltzmannLikelihood):
     def __getstate__(self) -> dict:
         type(self).pickled += 1
         return super().__getstate__()
+
+
+class NowhereLikelihood(bi.BoltzmannLikelihood):
+    """Log-likelihood ``-inf`` everywhere: every chain fails to find an initial point."""
+
+    def evaluate(self, weights, rationality=None):
+        value = super().evaluate(weights, rationality)
+        return value._replace(loglik=-float("inf"))

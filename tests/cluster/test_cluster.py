@@ -126,8 +126,9 @@ def _kill_when_running(client, chain: int, after: float, out: dict) -> None:
 
 
 def test_a_killed_worker_costs_one_rerun_not_the_posterior(client, monkeypatch):
-    # ~2 ms per evaluation makes each chain last a few seconds, so the kill lands mid-chain.
-    slow = slow_copy(problem(), delay=0.002)
+    # ~4 ms per evaluation makes each chain last a few seconds, so the kill lands mid-chain
+    # (if chain 0 finished first, the killed worker's address would be on its line).
+    slow = slow_copy(problem(), delay=0.004)
     killed: dict = {}
     killer = threading.Thread(target=_kill_when_running, args=(client, 0, 0.5, killed))
     stream = _Tty()
@@ -164,3 +165,18 @@ def test_cli_fit_with_scheduler(client, tmp_path):
     b = az.from_netcdf(str(tmp_path / "b" / "posterior.nc")).posterior["weights"].values
     assert a.shape == (2, 60, 2) and np.array_equal(a, b)
     assert not (tmp_path / "a" / "checkpoint.npz").exists()
+
+
+def test_an_error_in_a_chain_reaches_the_caller(client):
+    from .slowlik import NowhereLikelihood
+
+    lik = problem()
+    nowhere = NowhereLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    with pytest.raises(bi.InputError, match="no finite log-posterior"):
+        bi.sample(nowhere, PRIOR, **RUN, cluster=client)
+    # Nothing of the failed run stays on the cluster (its futures were cancelled).
+    time.sleep(0.5)
+    left = client.run_on_scheduler(
+        lambda dask_scheduler: [k for k in dask_scheduler.tasks
+                                if str(k).startswith(dc.KEY_PREFIX)])
+    assert left == []
