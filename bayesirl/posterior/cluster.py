@@ -164,7 +164,8 @@ def submit_chains(client: Any, blob: bytes, seeds: Sequence[np.random.SeedSequen
     Returns the future of the scattered problem and the chain futures (in chain order);
     task keys are ``bayesirl-chain-{k}-{run id}``.
     """
-    shared = client.scatter(blob, broadcast=True)
+    # hash=False: a key of its own, so releasing it never touches a concurrent run's copy.
+    shared = client.scatter(blob, broadcast=True, hash=False)
     run_id = uuid.uuid4().hex[:12]
     futures = [client.submit(chain_task, shared, k, s, settings, pure=False,
                              key=f"{KEY_PREFIX}-{k}-{run_id}")

@@ -180,3 +180,10 @@ def test_an_error_in_a_chain_reaches_the_caller(client):
         lambda dask_scheduler: [k for k in dask_scheduler.tasks
                                 if str(k).startswith(dc.KEY_PREFIX)])
     assert left == []
+
+
+def test_workers_with_another_bayesirl_version_are_refused(client, monkeypatch):
+    dc.check_workers(client)  # negative control: the same version passes
+    monkeypatch.setattr(bi, "__version__", "0.0.0-other")
+    with pytest.raises(bi.InputError, match="workers run another bayesirl version"):
+        bi.sample(problem(), PRIOR, **RUN, cluster=client)
