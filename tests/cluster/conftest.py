@@ -19,20 +19,24 @@ if str(TESTS) not in sys.path:
     sys.path.insert(0, str(TESTS))
 
 
-def _worker_environment() -> None:
-    paths = [str(REPO), str(TESTS)]
-    old = os.environ.get("PYTHONPATH")
-    os.environ["PYTHONPATH"] = os.pathsep.join(paths + ([old] if old else []))
-    os.environ.setdefault("NUMBA_CACHE_DIR", "/tmp/nbcache-tests")
-
-
 @pytest.fixture(scope="module")
 def client():
-    """A client of a fresh LocalCluster; closed after the module's tests."""
+    """A client of a fresh LocalCluster; closed after the module's tests, which then also
+    get their environment back (the workers, restarted ones too, read it while it runs)."""
     distributed = pytest.importorskip("distributed")
-    _worker_environment()
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None) as cluster:
-        with distributed.Client(cluster) as c:
-            c.wait_for_workers(2, timeout=60)
-            yield c
+    saved = {k: os.environ.get(k) for k in ("PYTHONPATH", "NUMBA_CACHE_DIR")}
+    paths = [str(REPO), str(TESTS)] + ([saved["PYTHONPATH"]] if saved["PYTHONPATH"] else [])
+    os.environ["PYTHONPATH"] = os.pathsep.join(paths)
+    os.environ.setdefault("NUMBA_CACHE_DIR", "/tmp/nbcache-tests")
+    try:
+        with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                      dashboard_address=None) as cluster:
+            with distributed.Client(cluster) as c:
+                c.wait_for_workers(2, timeout=60)
+                yield c
+    finally:
+        for key, value in saved.items():
+            if value is None:
+                os.environ.pop(key, None)
+            else:
+                os.environ[key] = value
