@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.posterior.chains import ChainRecord, run_job
+from bayesirl.posterior.chains import _LIK, ChainRecord, run_job
 from bayesirl.posterior.interrupt import Stopper
 
 # Seconds to wait for a scheduler to answer before refusing its address.
@@ -150,7 +150,10 @@ def chain_task(blob: bytes, k: int, seed: np.random.SeedSequence,
     from distributed import get_worker
 
     record = run_job(blob, k, seed, settings, None, Stopper(), _ignore, None)
-    return record, get_worker().address
+    # The likelihood's warm starts matter only for a checkpoint (none on a cluster); leaving
+    # them on the worker keeps large problems' value vectors and LU matrices off the wire.
+    arrays = {name: a for name, a in record.arrays.items() if not name.startswith(_LIK)}
+    return ChainRecord(record.meta, arrays), get_worker().address
 
 
 def _ignore(kind, k, payload) -> None:

@@ -23,6 +23,8 @@ pytest.importorskip("distributed")
 
 import bayesirl as bi  # noqa: E402
 from bayesirl.posterior import cluster as dc  # noqa: E402
+from bayesirl.posterior.chains import run_job  # noqa: E402
+from bayesirl.posterior.interrupt import Stopper  # noqa: E402
 from bayesirl.posterior.model import PosteriorModel  # noqa: E402
 
 from .slowlik import CountingLikelihood, slow_copy  # noqa: E402
@@ -102,6 +104,12 @@ def test_every_chain_task_refers_to_one_copy_on_every_worker(client):
         assert max(g["spec"].values()) < len(blob) / 4, (g["spec"], len(blob))
         records = client.gather(futures)
         assert [r.meta["done"] for r, _ in records] == [True] * 3
+        # The likelihood's warm starts stay on the workers (a local record carries them).
+        local = run_job(blob, 0, seeds[0], settings, None, Stopper(), lambda *a: None, None)
+        assert any(n.startswith("lik.") for n in local.arrays)
+        assert not any(n.startswith("lik.") for r, _ in records for n in r.arrays)
+        assert sorted(records[0][0].arrays) == sorted(
+            n for n in local.arrays if not n.startswith("lik."))
     finally:
         client.cancel([*futures, shared])
 
