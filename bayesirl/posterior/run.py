@@ -69,7 +69,8 @@ def sample(
         gives the same draws whether chains run in parallel or one after another.
     method : {"nuts", "random-walk"}
     progress : bool
-        One line per chain on a terminal (never when output is not a terminal).
+        One line per chain on a terminal (never when output is not a terminal); with
+        ``cluster``, a line as each chain finishes.
     rationality : None, float or LogNormal
         Fixed (None: the likelihood's) or sampled with this prior; then ``pin`` one weight.
     pin : dict, optional
