@@ -129,6 +129,10 @@ def _fit_parser(sub) -> None:
     fit.add_argument("--draws", type=_positive, help="override [sampler] draws per chain")
     fit.add_argument("--warmup", type=_count, help="override [sampler] warm-up iterations")
     fit.add_argument("--seed", type=_count, help="override [sampler] seed")
+    fit.add_argument("--scheduler", metavar="ADDRESS",
+                     help="run each chain as a task on a Dask cluster, e.g. tcp://host:8786, "
+                          "or 'local' for a cluster on this machine (needs bayesirl[cluster]; "
+                          "no checkpoint, so an interrupted run keeps nothing)")
 
 
 def _other_parsers(sub) -> None:

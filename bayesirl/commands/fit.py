@@ -58,7 +58,8 @@ def fit_command(args) -> int:
         if args.problem or args.demonstrations:
             raise InputError("fit --resume RUNDIR takes no problem or demonstration files; "
                              "the run folder records them")
-        given = [f"--{k}" for k in OVERRIDES if getattr(args, k, None) is not None]
+        given = [f"--{k}" for k in (*OVERRIDES, "scheduler")
+                 if getattr(args, k, None) is not None]
         if given or args.force:
             raise InputError(f"fit --resume continues with the run's own settings; drop "
                              f"{', '.join(given + (['--force'] if args.force else []))}")
@@ -84,8 +85,11 @@ def fit_command(args) -> int:
 
 def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> int:
     kwargs = _sample_kwargs(problem, settings, args.quiet)
-    kwargs["checkpoint"] = run.checkpoint
-    kwargs["resume"] = resume
+    if getattr(args, "scheduler", None) is not None:
+        kwargs["cluster"] = args.scheduler  # chains as Dask tasks; no checkpoint there
+    else:
+        kwargs["checkpoint"] = run.checkpoint
+        kwargs["resume"] = resume
     with sigterm_as_interrupt():
         try:
             posterior = bayesirl.sample(lik, **kwargs)

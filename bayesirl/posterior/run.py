@@ -15,6 +15,7 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.posterior import checkpoint as ckpt
+from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.chains import run_job
 from bayesirl.posterior.interrupt import Stopper
 from bayesirl.posterior.model import PosteriorModel
@@ -52,6 +53,7 @@ def sample(
     processes: int | None = None,
     checkpoint: str | Path | None = None,
     resume: bool = False,
+    cluster=None,
 ):
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
@@ -67,7 +69,8 @@ def sample(
         gives the same draws whether chains run in parallel or one after another.
     method : {"nuts", "random-walk"}
     progress : bool
-        One line per chain on a terminal (never when output is not a terminal).
+        One line per chain on a terminal (never when output is not a terminal); with
+        ``cluster``, a line as each chain finishes.
     rationality : None, float or LogNormal
         Fixed (None: the likelihood's) or sampled with this prior; then ``pin`` one weight.
     pin : dict, optional
@@ -87,6 +90,12 @@ def sample(
         Continue from ``checkpoint`` (which must exist and come from a run with the same
         problem, prior, seed, chains and settings): the result is bit-identical to an
         uninterrupted run. A finished checkpoint returns its posterior at once.
+    cluster : str or distributed.Client, optional
+        Run each chain as one Dask task: ``"local"`` (a ``LocalCluster`` of processes for
+        this run, closed afterwards), a scheduler address (``"tcp://host:8786"``) or a
+        ``distributed.Client``. The same seed gives the same draws as a local run; a chain
+        whose worker dies is rerun from its seed. Needs ``bayesirl[cluster]``; cannot be
+        combined with ``checkpoint``, ``resume`` or ``processes`` (see docs/cluster.md).
 
     Returns
     -------
@@ -105,6 +114,8 @@ def sample(
         Bad arguments, or a checkpoint that is missing or belongs to another run.
     """
     _check(chains, draws, warmup, method)
+    if cluster is not None:
+        dask_cluster.check_arguments(cluster, checkpoint, resume, processes)
     if resume and checkpoint is None:
         raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
     model = PosteriorModel(likelihood, prior, rationality, pin)
@@ -121,6 +132,10 @@ def sample(
     book = Book(path, run, saved, bar, CHECKPOINT_EVERY)
     interval = CHECKPOINT_EVERY if path is not None else None
     t0 = time.perf_counter()
+    if cluster is not None:  # Ctrl-C cancels the tasks and keeps nothing (no Interrupted)
+        records = dask_cluster.run_on_cluster(cluster, blob, seeds, settings, progress)
+        return finish(model, records, settings, int(seed), time.perf_counter() - t0, book,
+                      None)
     with Stopper() as stopper:
         try:
             if n_proc <= 1:
