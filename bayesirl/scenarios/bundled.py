@@ -23,6 +23,18 @@ from bayesirl.scenarios.park import PARK, PARK_WEIGHTS, SLIP
 EXAMPLE_SAMPLER = "chains = 4\ndraws = 600\nwarmup = 400\nseed = 0\n"
 
 
+# The prior, rationality and sampler tables both examples share.
+_SETTINGS = f"""[prior]
+kind = "normal"
+scale = 5.0
+
+[rationality]
+value = 1.0
+
+[sampler]
+{EXAMPLE_SAMPLER}"""
+
+
 def _park_map() -> str:
     rows = list(PARK)
     rows[0] = "S" + rows[0][1:]  # the walkers' start, a plain cell like "."
@@ -52,15 +64,7 @@ cells = """
 "t" = {{ shade = 1 }}
 "W" = {{ water = 1, goal = true }}
 
-[prior]
-kind = "normal"
-scale = 5.0
-
-[rationality]
-value = 1.0
-
-[sampler]
-{EXAMPLE_SAMPLER}'''
+{_SETTINGS}'''
 
 MACHINE_TOML = f'''# bayesirl problem: when to replace a wearing machine (invented data).
 title = "machine replacement"
@@ -74,15 +78,7 @@ npz = "machine.npz"
 feature_names = ["wear", "replacement"]
 actions = ["keep", "replace"]
 
-[prior]
-kind = "normal"
-scale = 5.0
-
-[rationality]
-value = 1.0
-
-[sampler]
-{EXAMPLE_SAMPLER}'''
+{_SETTINGS}'''
 
 
 class Example(NamedTuple):
