@@ -38,6 +38,10 @@ class BoltzmannLikelihood:
     tol : float
         Span tolerance of the soft Bellman solve (discounted model): the log-likelihood is
         then accurate to about ``2 * n_steps * tol``.
+    gradient_rtol : float
+        Relative tolerance of the adjoint solve; the gradient's relative error is about
+        this. The default suits samplers (see :mod:`bayesirl.likelihood.soft`); pass 1e-11
+        or less to compare gradients with another code to many digits.
 
     Notes
     -----
@@ -47,7 +51,8 @@ class BoltzmannLikelihood:
     """
 
     def __init__(
-        self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10
+        self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10,
+        gradient_rtol: float = soft.ADJOINT_RTOL,
     ) -> None:
         if q not in ("soft", "optimal"):
             raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
@@ -57,7 +62,10 @@ class BoltzmannLikelihood:
         self.counts = demo_counts(mdp, demos)
         self._model = soft if q == "soft" else optimal
         self.tol = float(tol)
-        self._cache = self._model.new_cache(mdp, self.counts, self.tol)
+        self.gradient_rtol = float(gradient_rtol)
+        if not 0.0 < self.gradient_rtol < 1.0:
+            raise InputError(f"gradient_rtol: expected a number in (0, 1); got {gradient_rtol!r}")
+        self._cache = self._new_cache()
         self.n_evaluations = 0
 
     def __getstate__(self) -> dict:
@@ -71,7 +79,10 @@ class BoltzmannLikelihood:
     def __setstate__(self, state: dict) -> None:
         self.__dict__.update(state)
         self._model = soft if self.q == "soft" else optimal
-        self._cache = self._model.new_cache(self.mdp, self.counts, self.tol)
+        self._cache = self._new_cache()
+
+    def _new_cache(self) -> dict:
+        return self._model.new_cache(self.mdp, self.counts, self.tol, self.gradient_rtol)
 
     @property
     def n_features(self) -> int:
@@ -80,7 +91,7 @@ class BoltzmannLikelihood:
 
     def reset(self) -> None:
         """Forget the warm starts (the next call solves from scratch)."""
-        self._cache = self._model.new_cache(self.mdp, self.counts, self.tol)
+        self._cache = self._new_cache()
 
     def warm_start(self) -> dict:
         """A snapshot of the warm starts, for :meth:`restore_warm_start` (cheap)."""
@@ -99,7 +110,7 @@ class BoltzmannLikelihood:
 
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
         """Inverse of :meth:`warm_start_arrays`: evaluations then continue bit for bit."""
-        fresh = self._model.new_cache(self.mdp, self.counts, self.tol)
+        fresh = self._new_cache()
         self._cache = warm.from_arrays(fresh, arrays)
         self.n_evaluations = int(arrays["n_evaluations"])
 

@@ -13,15 +13,14 @@ from __future__ import annotations
 import numpy as np
 
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
+from bayesirl.likelihood.soft import ADJOINT_RTOL
 from bayesirl.solver import logsumexp_rows, policy_iteration, solve_discounted
 from bayesirl.solver.finite import forward_adjoint
 
-ADJOINT_RTOL = 1e-11
 
-
-def new_cache(mdp, counts, tol: float = 0.0) -> dict:
+def new_cache(mdp, counts, tol: float = 0.0, gradient_rtol: float = ADJOINT_RTOL) -> dict:
     """Warm start: the previous greedy policy and adjoint (policy iteration is exact)."""
-    return {"greedy": None, "adjoint": None}
+    return {"greedy": None, "adjoint": None, "gradient_rtol": gradient_rtol}
 
 
 def _boltzmann(q_star, beta):
@@ -52,7 +51,7 @@ def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
     rho = push_back(mdp, counts.sa - expected)
     m, _ = solve_discounted(
         mdp.dynamics.greedy_matrix(sol.greedy), g, g * rho, x0=cache["adjoint"],
-        rtol=ADJOINT_RTOL, transpose=True, what="optimal-Q adjoint",
+        rtol=cache["gradient_rtol"], transpose=True, what="optimal-Q adjoint",
     )
     cache["adjoint"] = m
     one_hot = _one_hot(sol.greedy, mdp.n_actions)

@@ -14,7 +14,10 @@ import numpy as np
 from bayesirl.solver import Preconditioner
 
 # Entries fixed by the problem itself (rebuilt by new_cache); everything else is warm start.
-_CONSTANT = ("rho", "tol")
+_CONSTANT = ("rho", "tol", "gradient_rtol")
+# Entries that are tuples of equal-length sequences of arrays (likelihood.predict's history):
+# saved as one 2-D array per part, read back as such (predict reads both forms alike).
+_TUPLES = ("path",)
 
 
 def snapshot(cache: dict) -> dict:
@@ -30,6 +33,8 @@ def to_arrays(cache: dict) -> dict[str, np.ndarray]:
             continue
         if isinstance(value, Preconditioner):
             out.update({f"{key}.{k}": v for k, v in value.to_arrays().items()})
+        elif key in _TUPLES:
+            out.update({f"{key}.{i}": np.asarray(part) for i, part in enumerate(value)})
         else:
             out[key] = np.asarray(value)
     return out
@@ -45,6 +50,9 @@ def from_arrays(fresh: dict, arrays: dict[str, np.ndarray]) -> dict:
             prefix = f"{key}."
             cache[key] = Preconditioner.from_arrays(
                 {k[len(prefix):]: v for k, v in arrays.items() if k.startswith(prefix)})
+        elif key in _TUPLES:
+            parts = [arrays[k] for k in sorted(arrays) if k.startswith(f"{key}.")]
+            cache[key] = tuple(p.copy() for p in parts) if parts else None
         else:
             cache[key] = arrays[key].copy() if key in arrays else None
     return cache

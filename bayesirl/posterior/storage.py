@@ -56,7 +56,8 @@ def problem_meta(model: PosteriorModel) -> dict:
     mdp = lik.mdp
     return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
             "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
-            "tol": lik.tol, "likelihood_rationality": lik.rationality,
+            "tol": lik.tol, "gradient_rtol": lik.gradient_rtol,
+            "likelihood_rationality": lik.rationality,
             "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
 
 
@@ -78,8 +79,13 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
     demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
                                        np.split(const["demo_actions"].values, a_cut))
     lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"], q=pm["q"],
-                              tol=pm["tol"])
+                              tol=pm["tol"], **_gradient_rtol(pm))
     return PosteriorModel(lik, **PosteriorModel.parse_spec(meta["model"]))
+
+
+def _gradient_rtol(pm: dict) -> dict:
+    # Files written before the adjoint tolerance was a setting used 1e-11.
+    return {"gradient_rtol": pm.get("gradient_rtol", 1e-11)}
 
 
 def write_netcdf(idata, path: Path) -> Path:

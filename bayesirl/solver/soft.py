@@ -16,6 +16,7 @@ contiguous rows and vectorise. The solution exposes ``(S, A)`` views.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import NamedTuple
 
 import numpy as np
@@ -128,21 +129,28 @@ def soft_newton(
     tol: float = DEFAULT_TOL,
     max_iter: int = 50,
     precond: Preconditioner | None = None,
+    guesses: Sequence[np.ndarray] = (),
 ) -> SoftSolution:
     """Newton's method on ``V - T(V) = 0`` (soft policy iteration) with GMRES steps.
 
     The Jacobian is ``I - g P_pi``; each step solves it inexactly with a forcing term that
     shrinks with the residual, so convergence stays superlinear without oversolving early.
     Pass the same ``precond`` across calls to reuse its factorisation (see
-    :mod:`bayesirl.solver.linear`).
+    :mod:`bayesirl.solver.linear`). ``guesses`` are further starting points: the iteration
+    starts from whichever of ``values0`` and ``guesses`` has the narrowest Bellman residual
+    (one backup each; ties go to the earlier one).
     """
     reward_am, values = _start(dyn, reward, values0)
     if dyn.dense is not None:
         return _newton_dense(dyn, reward_am, discount, values, tol, max_iter)
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
-    matvecs = 0
+    first = _best_start(dyn, reward_am, discount, [values, *guesses])
+    matvecs = len(guesses)
     for it in range(1, max_iter + 1):
-        q, new_values, policy = _backup(dyn, reward_am, discount, values)
+        if first is not None:
+            values, (q, new_values, policy), first = *first, None
+        else:
+            q, new_values, policy = _backup(dyn, reward_am, discount, values)
         matvecs += 1
         residual = new_values - values
         span = residual.max() - residual.min()
@@ -163,6 +171,19 @@ def soft_newton(
     raise SolverError(
         f"soft Newton: span of the Bellman residual still {span:.3e} after {max_iter} steps"
     )
+
+
+def _best_start(dyn, reward_am, discount, starts):
+    """``(start, its backup)`` with the narrowest residual span (None: only one start)."""
+    if len(starts) == 1:
+        return None
+    best = None
+    for values in starts:
+        backup = _backup(dyn, reward_am, discount, values)
+        span = float(np.ptp(backup[1] - values))
+        if best is None or span < best[0]:
+            best = (span, values, backup)
+    return best[1], best[2]
 
 
 def _newton_dense(dyn, reward_am, discount, values, tol, max_iter) -> SoftSolution:

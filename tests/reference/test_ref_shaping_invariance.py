@@ -22,7 +22,6 @@ import numpy as np
 import pytest
 
 from bayesirl import BoltzmannLikelihood, TabularMDP, simulate
-from bayesirl.likelihood.soft import ADJOINT_RTOL
 from bayesirl.solver import DEFAULT_TOL, policy_iteration
 
 N_STATES, N_ACTIONS, N_FEATURES, DISCOUNT = 10, 3, 3, 0.9
@@ -52,14 +51,15 @@ def _shaping_column(trans, potential, discount):
 # - soft loglik: each model's log pi entries are within DEFAULT_TOL of exact (the stopping rule
 #   bounds g * span(V - V*) by tol), so |dL| <= 2 * N * DEFAULT_TOL over N demonstrated steps.
 # - gradients: the adjoint m (1^T m = -N, ||m|| ~ N) is solved to a relative residual
-#   ADJOINT_RTOL; with cond(I - g P_pi^T) <= (1 + g)/(1 - g) = 19 and |phi| <~ 3, the
-#   gradient error is <~ beta * 19 * ADJOINT_RTOL * N * 3 * 2 models, about 2e-7; the
+#   GRADIENT_RTOL; with cond(I - g P_pi^T) <= (1 + g)/(1 - g) = 19 and |phi| <~ 3, the
+#   gradient error is <~ beta * 19 * GRADIENT_RTOL * N * 3 * 2 models, about 2e-7; the
 #   policy error adds beta * N * tol * 3 ~ 5e-8. Checked at 1e-6 against gradient entries of
 #   size 3-10 (observed differences are ~1e-13).
 N_STEPS = N_EPISODES * LENGTH
+GRADIENT_RTOL = 1e-11  # passed to the likelihoods: this check compares gradients closely
 LOGLIK_ATOL = 2 * N_STEPS * DEFAULT_TOL
 GRAD_ATOL = 1e-6
-assert GRAD_ATOL > 2 * BETA * 19 * ADJOINT_RTOL * N_STEPS * 3 + BETA * N_STEPS * DEFAULT_TOL * 3
+assert GRAD_ATOL > 2 * BETA * 19 * GRADIENT_RTOL * N_STEPS * 3 + BETA * N_STEPS * DEFAULT_TOL * 3
 
 
 @pytest.mark.parametrize("transform", ["shaping", "constant"])
@@ -96,8 +96,9 @@ def test_loglik_and_gradient_invariant_discounted(transform, q):
         column, coef = np.ones((N_STATES, N_ACTIONS)), -1.9
     mdp2 = _augmented(trans, phi, column, discount=DISCOUNT)
     demos = simulate(mdp, w, N_EPISODES, LENGTH, rationality=BETA, seed=4)
-    lik = BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q)
-    lik2 = BoltzmannLikelihood(mdp2, demos, rationality=BETA, q=q)
+    lik = BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q, gradient_rtol=GRADIENT_RTOL)
+    lik2 = BoltzmannLikelihood(mdp2, demos, rationality=BETA, q=q,
+                               gradient_rtol=GRADIENT_RTOL)
     base = lik.evaluate(w)
     shaped = lik2.evaluate(np.append(w, coef))
     # The optimal-Q model uses exact policy iteration (LU), so its tolerance is rounding only;
