@@ -209,9 +209,9 @@ def _large_options(bench) -> None:
                        help="state counts for --large, e.g. 1e5; their rows replace those of "
                             "an existing benchmark-large.json, others are kept "
                             "(default 1000,10000,100000)")
-    bench.add_argument("--large-draws", type=_positive,
+    bench.add_argument("--large-draws", type=_positive, metavar="N",
                        help="draws per chain for --large (default 1000)")
-    bench.add_argument("--large-warmup", type=_count,
+    bench.add_argument("--large-warmup", type=_count, metavar="N",
                        help="warmup iterations per chain for --large (default 500)")
 
 

@@ -63,6 +63,18 @@ def _peak_bytes(who: int) -> int:
     return int(peak if sys.platform == "darwin" else peak * 1024)  # bytes on macOS, else KiB
 
 
+def _current_rss_bytes() -> int | None:
+    """This process's resident set now (Linux ``/proc``), or None elsewhere."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("VmRSS:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
+    return None
+
+
 class _Clock:
     def __init__(self, log) -> None:
         self.log, self.t0 = log, time.perf_counter()
@@ -91,6 +103,7 @@ def _heartbeat(clock: _Clock, label: str, every: float):
 
 
 def _fit(lik, draws, warmup, chains, processes, seed=0) -> tuple[dict, object]:
+    before = _current_rss_bytes()
     t0 = time.perf_counter()
     post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed, progress=False,
                   processes=processes)
@@ -114,7 +127,8 @@ def _fit(lik, draws, warmup, chains, processes, seed=0) -> tuple[dict, object]:
         "mean_leapfrog": float(np.mean(n_steps)),
         "step_sizes": [a["step_size"] for a in post.settings["adapted"]],
         "processes": n_proc, "fit_s_per_gradient": wall * n_proc / max(total_evals, 1),
-        "peak_main_bytes": main, "peak_child_bytes": child, "peak_sum_bytes": main + child,
+        "main_rss_at_fit_bytes": before, "peak_main_bytes": main, "peak_child_bytes": child,
+        "peak_sum_bytes": main + child,
     }, post
 
 
