@@ -48,7 +48,13 @@ def run_large(folder: Path, sizes=None, draws: int | None = None, warmup: int | 
     Returns
     -------
     tuple of Path
-        ``(markdown, json)``.
+        ``(markdown, json)``, rewritten after each size.
+
+    Raises
+    ------
+    InputError
+        An existing ``benchmark-large.json`` that is not a large-benchmark result (checked
+        before anything runs).
     """
     sizes = large.SIZES if sizes is None else sizes
     draws = large.DRAWS if draws is None else draws
@@ -56,5 +62,13 @@ def run_large(folder: Path, sizes=None, draws: int | None = None, warmup: int | 
     chains = large.CHAINS if chains is None else chains
     log(f"large: sizes {sorted(set(int(s) for s in sizes))}, {chains} chains x {draws} draws, "
         f"warmup {warmup}")
-    results = large.run(sizes, draws=draws, warmup=warmup, chains=chains, log=log)
-    return large_report.write(results, Path(folder))
+    folder = Path(folder)
+    large_report.load(folder)  # an unreadable old file fails now, not after hours of work
+    paths = []
+
+    def write(results):
+        paths[:] = large_report.write(results, folder)
+        log(f"large: wrote {paths[0]} and {paths[1]}")
+
+    large.run(sizes, draws=draws, warmup=warmup, chains=chains, log=log, on_row=write)
+    return tuple(paths)

@@ -204,7 +204,7 @@ def _now() -> str:
 
 
 def run(sizes=SIZES, draws: int = DRAWS, warmup: int = WARMUP, chains: int = CHAINS,
-        processes: int | None = None, log=print) -> dict:
+        processes: int | None = None, log=print, on_row=None) -> dict:
     """Measure every size in ascending order.
 
     Parameters
@@ -217,15 +217,21 @@ def run(sizes=SIZES, draws: int = DRAWS, warmup: int = WARMUP, chains: int = CHA
         Worker processes of the fits (default: ``sample``'s).
     log : callable
         Progress lines.
+    on_row : callable, optional
+        Called with the results so far after each size (e.g. to write them, so that a
+        crash at 10^5 keeps the smaller rows).
 
     Returns
     -------
     dict
         ``{"machine", "settings", "rows"}``, JSON-ready; rows keyed by ``states``.
     """
-    rows = []
-    for k, n in enumerate(sorted(set(int(s) for s in sizes))):
-        rows.append(measure_size(n, draws, warmup, chains, processes, log, first=k == 0))
     settings = {"chains": chains, "draws": draws, "warmup": warmup, "default_warmup": WARMUP,
                 "default_draws": DRAWS, "episodes": EPISODES, "length": LENGTH}
-    return {"machine": machine(), "settings": settings, "rows": rows}
+    results = {"machine": machine(), "settings": settings, "rows": []}
+    for k, n in enumerate(sorted(set(int(s) for s in sizes))):
+        results["rows"].append(measure_size(n, draws, warmup, chains, processes, log,
+                                            first=k == 0))
+        if on_row is not None:
+            on_row(results)
+    return results

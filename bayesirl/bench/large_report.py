@@ -12,9 +12,39 @@ import math
 from pathlib import Path
 
 from bayesirl.bench.report import _fmt
+from bayesirl.errors import InputError
 from bayesirl.files import write_json, write_text
 
 MD_NAME, JSON_NAME = "benchmark-large.md", "benchmark-large.json"
+
+
+def load(folder: Path) -> dict | None:
+    """The ``benchmark-large.json`` in ``folder``, or None if there is none.
+
+    Parameters
+    ----------
+    folder : Path
+
+    Returns
+    -------
+    dict or None
+
+    Raises
+    ------
+    InputError
+        The file is not JSON or has no list of rows with a ``states`` field each.
+    """
+    path = Path(folder) / JSON_NAME
+    if not path.exists():
+        return None
+    try:
+        old = json.loads(path.read_text(encoding="utf-8"))
+        for row in old["rows"]:
+            int(row["states"])
+    except (ValueError, KeyError, TypeError) as err:
+        raise InputError(f"{path}: not a large-benchmark result ({type(err).__name__}: {err}); "
+                         "move it away or fix it, its rows are merged with the new ones") from err
+    return old
 
 
 def merge(old: dict | None, new: dict) -> dict:
@@ -97,7 +127,9 @@ def _gradients(rows) -> list[str]:
         "of a fresh likelihood in the main process, a cold solve. *Warm*: median of 10",
         "gradients after 1% weight changes. *Fit*: wall time x processes / gradients. Solver",
         "work: means per gradient along a 20-step random walk from the posterior mean (steps",
-        "of 0.1 posterior sd): Newton steps and Krylov mat-vecs of the value and adjoint solves.",
+        "of 0.1 posterior sd): Newton steps (linear solves) and their GMRES mat-vecs (the",
+        "Bellman backups, one sweep per Newton iteration, not included), and the adjoint",
+        "solve's mat-vecs.",
         "",
         "| states | build s | first s | warm ms | fit ms | Newton steps | value mat-vecs "
         "| adjoint mat-vecs |",
@@ -145,9 +177,17 @@ def summary(rows) -> str:
     nt = b["warm_s_per_gradient"] / a["warm_s_per_gradient"]
     slope = math.log(nt) / math.log(ns)
     ess = (a["ess_per_s"] or math.nan) / (b["ess_per_s"] or math.nan)
+    change = f"rises {_fmt(1 / ess, '.1f')}x" if ess < 1 else f"falls {_fmt(ess, '.1f')}x"
     return (f"From S = {a['states']} to {b['states']} ({ns:.0f}x the states) the time per "
-            f"gradient grows {nt:.1f}x, about S^{slope:.2f}, and ESS per second falls "
-            f"{_fmt(ess, '.1f')}x.")
+            f"gradient grows {nt:.1f}x, about S^{slope:.2f}, and ESS per second {change}.")
+
+
+def _other_machines(rows, m: dict) -> list[str]:
+    other = [str(r["states"]) for r in rows if r.get("machine", m) != m]
+    if not other:
+        return []
+    return [f"Rows S = {', '.join(other)} were measured on another machine or library versions "
+            "(their `machine` field in the JSON).", ""]
 
 
 def render(results: dict) -> str:
@@ -162,6 +202,7 @@ def render(results: dict) -> str:
         f"Python {m['python']}, numpy {m['numpy']}, scipy {m['scipy']}, numba {m['numba']}. "
         f"Rows measured {', '.join(dates)}; medians where repeated.",
         "",
+        *_other_machines(rows, m),
         "Random sparse MDP (`bench/problems.py`): A = 4, 4 successors per (s, a), F = 8, "
         f"discount 0.95, seed 0; {s['episodes']} demonstrations of {s['length']} steps; prior "
         "Normal(0, 5); NUTS, seed 0, default worker processes. Default run: 4 chains x "
@@ -189,8 +230,7 @@ def write(results: dict, folder: Path) -> tuple[Path, Path]:
     """
     folder = Path(folder)
     md, js = folder / MD_NAME, folder / JSON_NAME
-    old = json.loads(js.read_text(encoding="utf-8")) if js.exists() else None
-    merged = merge(old, results)
+    merged = merge(load(folder), results)
     write_json(js, merged, sort_keys=True)
     write_text(md, render(merged))
     return md, js

@@ -48,13 +48,21 @@ def counting_solves():
         lik_soft.solve_discounted = original_lik
 
 
-def _numbers(work) -> dict:
-    """Numeric fields of a counter object (mapping, named tuple, dataclass or plain object)."""
+def _numbers(work) -> dict | None:
+    """Numeric fields of a counter object (mapping, named tuple, dataclass or plain object);
+    None when it has none (then the profile counts by itself)."""
+    if work is None:
+        return None
     if hasattr(work, "_asdict"):
         work = work._asdict()
     elif not isinstance(work, dict):
-        work = vars(work)
-    return {k: float(v) for k, v in work.items() if isinstance(v, (int, float, np.number))}
+        try:
+            work = vars(work)
+        except TypeError:
+            return None
+    out = {k: float(v) for k, v in work.items()
+           if isinstance(v, (int, float, np.number)) and not isinstance(v, bool)}
+    return out or None
 
 
 def profile(lik, centre, scale, points: int = 20, seed: int = 0) -> dict:
@@ -76,18 +84,18 @@ def profile(lik, centre, scale, points: int = 20, seed: int = 0) -> dict:
     -------
     dict
         ``gradients``, ``seconds_per_gradient`` (median), ``source`` ("lik.work" or
-        "wrapped solve_discounted"), the per-gradient means ``newton_steps``,
-        ``value_matvecs`` and ``adjoint_matvecs``, and ``dense`` (True when the problem
-        takes the dense Newton path and no Krylov solve is made).
+        "wrapped solve_discounted"), per-gradient means of the counters (when wrapping:
+        ``newton_steps``, ``value_matvecs``, ``adjoint_solves`` and ``adjoint_matvecs``;
+        from ``lik.work``: its numeric fields), and ``dense`` (True when the problem takes
+        the dense Newton path and no Krylov solve is made).
     """
     rng = np.random.default_rng(seed)
     w = np.array(centre, dtype=float)
     lik.evaluate(w)
     steps = w + np.cumsum(scale * rng.standard_normal((points, w.size)), axis=0)
-    work = getattr(lik, "work", None)
+    before = _numbers(getattr(lik, "work", None))
     times = []
-    if work is not None:
-        before = _numbers(work)
+    if before is not None:
         for x in steps:
             times.append(_timed(lik, x))
         after = _numbers(lik.work)

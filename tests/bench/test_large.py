@@ -13,6 +13,7 @@ from bayesirl.bench import large, run_large
 from bayesirl.bench.large_report import merge, render, summary
 from bayesirl.bench.solverwork import profile
 from bayesirl.cli import main
+from bayesirl.errors import InputError
 from bayesirl.likelihood import BoltzmannLikelihood
 
 S = 300  # above the dense Newton path (200 states), so the Krylov solves are counted
@@ -122,3 +123,29 @@ def test_cli_help_states_the_suite_defaults(capsys):
     text = " ".join(capsys.readouterr().out.split())
     assert f"(default {','.join(str(n) for n in large.SIZES)})" in text
     assert f"(default {large.DRAWS})" in text and f"(default {large.WARMUP})" in text
+
+
+class _Counted:
+    """A likelihood stand-in with cumulative counters, as ``lik.work`` may offer them."""
+
+    def __init__(self, lik):
+        self.lik, self.mdp = lik, lik.mdp
+        self.work = {"newton_steps": 0, "value_matvecs": 0, "flag": True}
+
+    def evaluate(self, w):
+        self.work = {**self.work, "newton_steps": self.work["newton_steps"] + 2,
+                     "value_matvecs": self.work["value_matvecs"] + 10}
+        return self.lik.evaluate(w)
+
+
+def test_profile_reads_the_likelihoods_own_counters_when_it_has_them():
+    mdp, w, demos = large.problem(S)
+    out = profile(_Counted(BoltzmannLikelihood(mdp, demos)), w, 0.01, points=4)
+    assert out["source"] == "lik.work" and "flag" not in out
+    assert out["newton_steps"] == 2 and out["value_matvecs"] == 10
+
+
+def test_an_unreadable_old_result_fails_before_anything_runs(tmp_path):
+    (tmp_path / "benchmark-large.json").write_text("{not json")
+    with pytest.raises(InputError, match="benchmark-large.json"):
+        run_large(tmp_path, sizes=[10**5], log=lambda _: None)  # would take an hour
