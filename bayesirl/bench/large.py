@@ -9,7 +9,9 @@ Peak memory comes from ``getrusage``: ``RUSAGE_SELF`` is this process's peak res
 far and ``RUSAGE_CHILDREN`` that of the largest child waited for so far (Linux, KiB). Both are
 process-lifetime maxima, so sizes run in ascending order and each row reads its own problem's
 peak; forked workers share the parent's pages at first, so main + largest child is an upper
-bound on the total resident memory, not the total itself.
+bound on the total resident memory, not the total itself. The total itself is sampled: the
+peak over the fit of the proportional set sizes of the main process and its workers summed
+(``bench/memory.py``, Linux only), which counts each shared page once.
 """
 
 from __future__ import annotations
@@ -24,6 +26,7 @@ from datetime import datetime, timezone
 
 import numpy as np
 
+from bayesirl.bench.memory import PeakPss
 from bayesirl.bench.problems import demonstrations_for, random_mdp
 from bayesirl.bench.report import machine
 from bayesirl.bench.solverwork import profile
@@ -38,6 +41,7 @@ EPISODES, LENGTH = 200, 100
 WARM_REPEATS = 10  # gradients after 1% weight changes, for the warm per-gradient median
 PROFILE_POINTS = 20  # gradients along the solver profile's random walk
 HEARTBEAT = 300.0  # seconds between "still sampling" lines during a fit
+PSS_EVERY = 1.0  # seconds between samples of the total proportional set size (bench/memory.py)
 
 
 def problem(n_states: int):
@@ -105,8 +109,9 @@ def _heartbeat(clock: _Clock, label: str, every: float):
 def _fit(lik, draws, warmup, chains, processes, seed=0) -> tuple[dict, object]:
     before = _current_rss_bytes()
     t0 = time.perf_counter()
-    post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed, progress=False,
-                  processes=processes)
+    with PeakPss(PSS_EVERY) as pss:
+        post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed,
+                      progress=False, processes=processes)
     wall = time.perf_counter() - t0
     main, child = _peak_bytes(resource.RUSAGE_SELF), _peak_bytes(resource.RUSAGE_CHILDREN)
     f = post.weights.shape[-1]
@@ -128,7 +133,8 @@ def _fit(lik, draws, warmup, chains, processes, seed=0) -> tuple[dict, object]:
         "step_sizes": [a["step_size"] for a in post.settings["adapted"]],
         "processes": n_proc, "fit_s_per_gradient": wall * n_proc / max(total_evals, 1),
         "main_rss_at_fit_bytes": before, "peak_main_bytes": main, "peak_child_bytes": child,
-        "peak_sum_bytes": main + child,
+        "peak_sum_bytes": main + child, "peak_total_pss_bytes": pss.peak_bytes,
+        "pss_processes": pss.peak_processes,
     }, post
 
 

@@ -105,16 +105,19 @@ def _memory(rows) -> list[str]:
         "each a process-lifetime maximum (sizes run in ascending order). Workers are forked",
         "and share the parent's pages at first, so the sum is an upper bound on the total.",
         "*Main at fit*: the main process's resident set when the fit started (mostly the",
-        "imported libraries), for scale.",
+        "imported libraries), for scale. *Total PSS*: peak over the fit of the proportional",
+        "set sizes of the main process and its workers summed, sampled every second; shared",
+        "pages count once, so this is the group's real footprint (a shorter peak can be missed).",
         "",
         "| states | processes | main at fit MB | main peak MB | largest worker MB "
-        "| sum MB (upper bound) |",
-        "|---|---|---|---|---|---|",
+        "| sum MB (upper bound) | total PSS MB |",
+        "|---|---|---|---|---|---|---|",
     ]
     for r in rows:
         lines.append(f"| {r['states']} | {r['processes']} | "
                      f"{_mb(r.get('main_rss_at_fit_bytes'))} | {_mb(r['peak_main_bytes'])} | "
-                     f"{_mb(r['peak_child_bytes'])} | {_mb(r['peak_sum_bytes'])} |")
+                     f"{_mb(r['peak_child_bytes'])} | {_mb(r['peak_sum_bytes'])} | "
+                     f"{_mb(r.get('peak_total_pss_bytes'))} |")
     return lines + [""]
 
 

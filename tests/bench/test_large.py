@@ -9,7 +9,7 @@ import pytest
 
 import bayesirl.likelihood.soft as lik_soft
 import bayesirl.solver.soft as solver_soft
-from bayesirl.bench import large, run_large
+from bayesirl.bench import large, memory, run_large
 from bayesirl.bench.large_report import merge, render, summary
 from bayesirl.bench.solverwork import profile
 from bayesirl.cli import main
@@ -31,7 +31,9 @@ def folder(tmp_path_factory):
     """A report folder after one tiny run (2 chains x 20 draws, warmup 20) at S = 300."""
     out = tmp_path_factory.mktemp("large")
     (out / "benchmark.md").write_text("the main report\n")
-    md, js = run_large(out, sizes=[S], draws=20, warmup=20, chains=2, log=lambda _: None)
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(large, "PSS_EVERY", 0.1)  # samples while the short fit's workers live
+        md, js = run_large(out, sizes=[S], draws=20, warmup=20, chains=2, log=lambda _: None)
     assert (md, js) == (out / "benchmark-large.md", out / "benchmark-large.json")
     return out
 
@@ -46,6 +48,9 @@ def test_the_json_has_every_field_of_a_row(folder):
     assert 0 < row["sampling_s"] < row["wall_s"]
     assert len(row["step_sizes"]) == 2 and row["mean_leapfrog"] >= 1
     assert row["peak_child_bytes"] > 0 and row["peak_main_bytes"] > 0
+    if memory.available():  # the workers' PSS: at least 1 + 2 processes were sampled
+        assert row["pss_processes"] == 3
+        assert 0 < row["peak_total_pss_bytes"] < row["peak_sum_bytes"]
     prof = row["profile"]
     assert prof["source"] == "wrapped solve_discounted" and not prof["dense"]
     assert prof["newton_steps"] > 0 and prof["value_matvecs"] > 0 and prof["adjoint_matvecs"] > 0
