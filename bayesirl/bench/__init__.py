@@ -6,6 +6,7 @@ writes ``reports/benchmark-large.*``, merging rows by problem size.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
 from bayesirl.bench import design, engine, large, large_report, report, sampler
@@ -28,8 +29,9 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     return report.write(results, folder)
 
 
-def run_large(folder: Path, sizes=None, draws: int | None = None, warmup: int | None = None,
-              chains: int | None = None, log=print) -> tuple[Path, Path]:
+def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | None = None,
+              warmup: int | None = None, chains: int | None = None,
+              log: Callable[[str], object] = print) -> tuple[Path, Path]:
     """Run the large suite and merge its rows into ``folder``'s ``benchmark-large.*``.
 
     Parameters

@@ -21,6 +21,7 @@ import resource
 import sys
 import threading
 import time
+from collections.abc import Callable, Iterable
 from contextlib import contextmanager
 from datetime import datetime, timezone
 
@@ -153,7 +154,8 @@ def _warm_seconds(mdp, demos, w, seed=0) -> float:
 
 
 def measure_size(n_states: int, draws: int = DRAWS, warmup: int = WARMUP, chains: int = CHAINS,
-                 processes: int | None = None, log=print, first: bool = False) -> dict:
+                 processes: int | None = None, log: Callable[[str], object] = print,
+                 first: bool = False) -> dict:
     """One row of the large benchmark: build, fit, then time and profile in this process.
 
     Parameters
@@ -209,8 +211,10 @@ def _now() -> str:
     return datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
 
 
-def run(sizes=SIZES, draws: int = DRAWS, warmup: int = WARMUP, chains: int = CHAINS,
-        processes: int | None = None, log=print, on_row=None) -> dict:
+def run(sizes: Iterable[int] = SIZES, draws: int = DRAWS, warmup: int = WARMUP,
+        chains: int = CHAINS, processes: int | None = None,
+        log: Callable[[str], object] = print,
+        on_row: Callable[[dict], object] | None = None) -> dict:
     """Measure every size in ascending order.
 
     Parameters

@@ -171,8 +171,18 @@ def _scaling(rows) -> list[str]:
     return lines + ["", summary(rows), ""]
 
 
-def summary(rows) -> str:
-    """One sentence on how the cost per gradient and ESS per second grow with the states."""
+def summary(rows: list[dict]) -> str:
+    """One sentence on how the cost per gradient and ESS per second grow with the states.
+
+    Parameters
+    ----------
+    rows : list of dict
+        Rows sorted by states; the first and the last are compared.
+
+    Returns
+    -------
+    str
+    """
     if len(rows) < 2:
         return f"Only S = {rows[0]['states']} measured so far: no scaling to report."
     a, b = rows[0], rows[-1]
@@ -194,7 +204,17 @@ def _other_machines(rows, m: dict) -> list[str]:
 
 
 def render(results: dict) -> str:
-    """Markdown of the (merged) large benchmark."""
+    """Markdown of the (merged) large benchmark.
+
+    Parameters
+    ----------
+    results : dict
+        ``{"machine", "settings", "rows"}`` as written to ``benchmark-large.json``.
+
+    Returns
+    -------
+    str
+    """
     m, s = results["machine"], results["settings"]
     rows = results["rows"]
     dates = sorted({r["date"] for r in rows})

@@ -22,7 +22,14 @@ _NEWTON, _ADJOINT = "soft Newton step", "likelihood adjoint"
 
 @contextmanager
 def counting_solves():
-    """Count ``solve_discounted`` calls and mat-vecs per ``what=``, restoring on exit."""
+    """Count ``solve_discounted`` calls and mat-vecs per ``what=``, restoring on exit.
+
+    Yields
+    ------
+    dict
+        ``newton_steps``, ``value_matvecs``, ``adjoint_solves``, ``adjoint_matvecs``,
+        updated as the solves run.
+    """
     counts = {"newton_steps": 0, "value_matvecs": 0, "adjoint_solves": 0, "adjoint_matvecs": 0}
     original_solver, original_lik = solver_soft.solve_discounted, lik_soft.solve_discounted
 
@@ -65,7 +72,8 @@ def _numbers(work) -> dict | None:
     return out or None
 
 
-def profile(lik, centre, scale, points: int = 20, seed: int = 0) -> dict:
+def profile(lik, centre: np.ndarray, scale: np.ndarray | float, points: int = 20,
+            seed: int = 0) -> dict:
     """Solver work per gradient along a random walk of ``points`` steps around ``centre``.
 
     Parameters
