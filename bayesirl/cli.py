@@ -17,11 +17,22 @@ EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
 
 def _bench(args: argparse.Namespace) -> int:
-    from bayesirl.bench import run_all
+    from bayesirl.bench import SUITES, run_all, run_large
 
+    if args.large:
+        if args.only or args.quick:
+            print("bayesirl bench: --large runs its own suite; drop --only/--quick",
+                  file=sys.stderr)
+            return 2
+        md, js = run_large(Path(args.out), sizes=args.large_sizes, draws=args.large_draws,
+                           warmup=args.large_warmup)
+        print(f"wrote {md} and {js}")
+        return 0
+    if (args.large_sizes, args.large_draws, args.large_warmup) != (None, None, None):
+        print("bayesirl bench: --large-sizes/--large-draws/--large-warmup need --large",
+              file=sys.stderr)
+        return 2
     only = tuple(x.strip() for x in args.only.split(",")) if args.only else None
-    from bayesirl.bench import SUITES
-
     bad = [x for x in (only or ()) if x not in SUITES]
     if bad:
         print(f"bayesirl bench: unknown suite(s) {bad}; choose from {list(SUITES)}",
@@ -30,6 +41,20 @@ def _bench(args: argparse.Namespace) -> int:
     md, js = run_all(Path(args.out), quick=args.quick, only=only or SUITES)
     print(f"wrote {md} and {js}")
     return 0
+
+
+def _sizes(text: str) -> list[int]:
+    out = []
+    for part in text.split(","):
+        try:
+            v = float(part)
+        except ValueError:
+            v = float("nan")
+        if not (10 <= v < 1e9 and v == int(v)):
+            raise argparse.ArgumentTypeError(
+                f"{part!r} is not a state count >= 10; give e.g. 1000,10000 or 1e5")
+        out.append(int(v))
+    return out
 
 
 def _fit(args):
@@ -174,6 +199,22 @@ def _other_parsers(sub) -> None:
     val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
 
 
+def _large_options(bench) -> None:
+    # Defaults are bench/large.py's (SIZES, DRAWS, WARMUP); None keeps that import, and
+    # numpy's, out of every other command's start-up.
+    bench.add_argument("--large", action="store_true",
+                       help="instead, fit 10^3..10^5-state problems and record time, ESS, "
+                            "memory and scaling in benchmark-large.md + .json (hours at 10^5)")
+    bench.add_argument("--large-sizes", type=_sizes, metavar="S,S,...",
+                       help="state counts for --large, e.g. 1e5; their rows replace those of "
+                            "an existing benchmark-large.json, others are kept "
+                            "(default 1000,10000,100000)")
+    bench.add_argument("--large-draws", type=_positive, metavar="N",
+                       help="draws per chain for --large (default 1000)")
+    bench.add_argument("--large-warmup", type=_count, metavar="N",
+                       help="warmup iterations per chain for --large (default 500)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Argument parser with one sub-command per task."""
     parser = argparse.ArgumentParser(
@@ -195,7 +236,9 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--quick", action="store_true",
                        help="small sizes only (a smoke run; the committed report is a full run)")
     bench.add_argument("--only", default="",
-                       help="comma-separated suites to run: engine, sampler (default: all)")
+                       help="comma-separated suites to run: engine, sampler, design "
+                            "(default: all)")
+    _large_options(bench)
     return parser
 
 

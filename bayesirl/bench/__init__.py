@@ -1,10 +1,15 @@
-"""Benchmarks as code: ``bayesirl bench`` runs them and writes ``reports/benchmark.*``."""
+"""Benchmarks as code: ``bayesirl bench`` runs them and writes ``reports/benchmark.*``.
+
+``bayesirl bench --large`` runs the large-problem suite instead (``bench/large.py``) and
+writes ``reports/benchmark-large.*``, merging rows by problem size.
+"""
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
-from bayesirl.bench import design, engine, report, sampler
+from bayesirl.bench import design, engine, large, large_report, report, sampler
 
 SUITES = ("engine", "sampler", "design")
 
@@ -22,3 +27,50 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
     return report.write(results, folder)
+
+
+def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | None = None,
+              warmup: int | None = None, chains: int | None = None,
+              log: Callable[[str], object] = print) -> tuple[Path, Path]:
+    """Run the large suite and merge its rows into ``folder``'s ``benchmark-large.*``.
+
+    Parameters
+    ----------
+    folder : Path
+        Receives ``benchmark-large.md`` and ``.json`` (``benchmark.md`` is left alone).
+    sizes : iterable of int, optional
+        State counts to (re)measure (default ``large.SIZES``: 10^3, 10^4, 10^5); rows of
+        other sizes already in the JSON are kept.
+    draws, warmup, chains : int, optional
+        Per chain (defaults ``large.DRAWS``, ``large.WARMUP``, ``large.CHAINS``: 1000,
+        500, 4).
+    log : callable
+        One line per phase.
+
+    Returns
+    -------
+    tuple of Path
+        ``(markdown, json)``, rewritten after each size.
+
+    Raises
+    ------
+    InputError
+        An existing ``benchmark-large.json`` that is not a large-benchmark result (checked
+        before anything runs).
+    """
+    sizes = large.SIZES if sizes is None else sizes
+    draws = large.DRAWS if draws is None else draws
+    warmup = large.WARMUP if warmup is None else warmup
+    chains = large.CHAINS if chains is None else chains
+    log(f"large: sizes {sorted(set(int(s) for s in sizes))}, {chains} chains x {draws} draws, "
+        f"warmup {warmup}")
+    folder = Path(folder)
+    large_report.load(folder)  # an unreadable old file fails now, not after hours of work
+    paths = []
+
+    def write(results):
+        paths[:] = large_report.write(results, folder)
+        log(f"large: wrote {paths[0]} and {paths[1]}")
+
+    large.run(sizes, draws=draws, warmup=warmup, chains=chains, log=log, on_row=write)
+    return tuple(paths)
