@@ -212,7 +212,7 @@ def _large_options(bench) -> None:
     bench.add_argument("--large-draws", type=_positive, metavar="N",
                        help="draws per chain for --large (default 1000)")
     bench.add_argument("--large-warmup", type=_count, metavar="N",
-                       help="warmup iterations per chain for --large (default 500)")
+                       help="warmup iterations per chain for --large (default 300)")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -37,7 +37,7 @@ from bayesirl.posterior import sample
 SIZES = (10**3, 10**4, 10**5)
 CHAINS = 4
 DRAWS = 1000
-WARMUP = 500
+WARMUP = 300
 EPISODES, LENGTH = 200, 100
 WARM_REPEATS = 10  # gradients after 1% weight changes, for the warm per-gradient median
 PROFILE_POINTS = 20  # gradients along the solver profile's random walk

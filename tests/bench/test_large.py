@@ -40,7 +40,7 @@ def folder(tmp_path_factory):
 
 def test_the_json_has_every_field_of_a_row(folder):
     results = json.loads((folder / "benchmark-large.json").read_text())
-    assert results["settings"]["default_warmup"] == large.WARMUP == 500
+    assert results["settings"]["default_warmup"] == large.WARMUP == 300
     (row,) = results["rows"]
     assert ROW_KEYS <= set(row)
     assert row["states"] == S and row["chains"] == 2 and row["draws"] == 20
@@ -59,7 +59,7 @@ def test_the_json_has_every_field_of_a_row(folder):
 def test_the_markdown_has_the_scaling_table_and_the_main_report_is_untouched(folder):
     text = (folder / "benchmark-large.md").read_text()
     assert "## Scaling" in text and "| states | states ratio |" in text
-    assert "W = 500" in text and "## Peak memory" in text
+    assert "W = 300" in text and "## Peak memory" in text
     assert (folder / "benchmark.md").read_text() == "the main report\n"
 
 
