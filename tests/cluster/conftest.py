@@ -24,13 +24,18 @@ def client():
     """A client of a fresh LocalCluster; closed after the module's tests, which then also
     get their environment back (the workers, restarted ones too, read it while it runs)."""
     distributed = pytest.importorskip("distributed")
+    dask = pytest.importorskip("dask")
     saved = {k: os.environ.get(k) for k in ("PYTHONPATH", "NUMBA_CACHE_DIR")}
     paths = [str(REPO), str(TESTS)] + ([saved["PYTHONPATH"]] if saved["PYTHONPATH"] else [])
     os.environ["PYTHONPATH"] = os.pathsep.join(paths)
     os.environ.setdefault("NUMBA_CACHE_DIR", "/tmp/nbcache-tests")
+    # The active memory manager drops "extra" replicas every few seconds, which would race
+    # the broadcast check in test_cluster.py (seen under load); off for this cluster.
+    quiet_memory = dask.config.set({"distributed.scheduler.active-memory-manager.start": False})
     try:
-        with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                      dashboard_address=None) as cluster:
+        with quiet_memory, distributed.LocalCluster(
+                n_workers=2, threads_per_worker=1, processes=True,
+                dashboard_address=None) as cluster:
             with distributed.Client(cluster) as c:
                 c.wait_for_workers(2, timeout=60)
                 yield c
