@@ -2,9 +2,11 @@
 
 Every random number comes from a child of ``numpy.random.SeedSequence(seed)`` named by what
 it is for, so the outcomes depend on the seed alone, never on the order of the work:
-``spawn_key (0,)`` the outer samples, ``(1, i, r)`` the ``r``-th simulation of candidate
-``i``'s demonstrations (``r`` counts its earlier picks), ``(2, step)`` the simulated
-answers of the query picked at greedy ``step``.
+``spawn_key (0,)`` the outer samples, ``(1, s, r)`` the ``r``-th simulation of the
+demonstrations from start state ``s`` (``r`` counts the earlier picks of that start),
+``(2, step)`` the simulated answers of the query picked at greedy ``step``. A start
+candidate's simulated demonstrations, and so its first-step gain, are therefore the same
+whichever other candidates are scored with it.
 """
 
 from __future__ import annotations
@@ -63,7 +65,7 @@ class Batch:
     def _simulate(self, which: np.ndarray) -> None:
         tm = self.mdp.transitions
         n_j, length = self.actions.shape[1], self.actions.shape[2]
-        u = np.stack([child_rng(self.seed, START, int(self.start_index[c]),
+        u = np.stack([child_rng(self.seed, START, int(self.start_states[c]),
                                 int(self.rounds[c])).random((n_j, length, 2)) for c in which])
         starts = np.ascontiguousarray(self.start_states[which])
         for j in range(n_j):
@@ -74,9 +76,11 @@ class Batch:
     def add_start(self, c: int) -> None:
         """Condition on the simulated demonstrations of start candidate ``c``."""
         self.prev += self.backend.loglik("start", (self.states[c], self.actions[c]))
-        # A second demonstration from the same start is a fresh, independent outcome.
-        self.rounds[c] += 1
-        self._simulate(np.array([c]))
+        # A second demonstration from the same start is a fresh, independent outcome (for
+        # every candidate with that start, should the list name it twice).
+        same = np.flatnonzero(self.start_states == self.start_states[c])
+        self.rounds[same] += 1
+        self._simulate(same)
 
     def add_query(self, state: int, step: int) -> None:
         """Condition on one simulated answer at ``state`` per outer sample."""
