@@ -27,7 +27,8 @@ KEY_PREFIX = "bayesirl-design"
 
 @lru_cache(maxsize=2)
 def _problem(blob: bytes) -> dict:
-    """The unpickled problem, once per worker process and run."""
+    """The unpickled problem, once per worker process and run (the latest two stay cached
+    on a worker after their runs)."""
     return pickle.loads(blob)
 
 

@@ -192,11 +192,11 @@ def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
     """The greedy batch: score every candidate, keep the best, condition on it, repeat."""
     step = 1
     n_draws = policies.n
-    where = "" if isinstance(backend, LocalBackend) else " on the cluster"
+    local = isinstance(backend, LocalBackend)
 
     def show(solves: int) -> None:
-        status.update(f"suggest: pick {step}/{budget}{where}, policy solves {solves} "
-                      f"(draws: {n_draws})")
+        work = f"policy solves {solves}" if local else "tasks on the cluster"
+        status.update(f"suggest: pick {step}/{budget}, {work} (draws: {n_draws})")
 
     policies.on_solve = show
     is_start = np.array([k == "start" for k in kinds], dtype=bool)

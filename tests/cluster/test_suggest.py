@@ -72,7 +72,10 @@ def test_the_problem_is_scattered_once(client, monkeypatch):
 
     monkeypatch.setattr(client, "scatter", counting_scatter)
     monkeypatch.setattr(client, "submit", recording_submit)
-    bi.suggest(post, ["start:1", "query:2", 3, "query:5"], **RUN, cluster=client)
+    mixed = ["start:1", "query:2", 3, "query:5"]
+    remote = bi.suggest(post, mixed, **RUN, cluster=client)
+    monkeypatch.undo()
+    assert repr(remote) == repr(bi.suggest(post, mixed, **RUN))  # mixed kinds: same bits too
     blobs = [(d, kw, f) for d, kw, f in scattered if isinstance(d, bytes)]
     assert len(blobs) == 1 and blobs[0][1].get("broadcast") is True
     blob, problem = blobs[0][0], blobs[0][2]
