@@ -178,6 +178,10 @@ def _other_parsers(sub) -> None:
                      help="number of demonstrations to choose together (default 1)")
     sug.add_argument("--target", help="feature whose weight should be narrowed (default: all)")
     sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
+    sug.add_argument("--scheduler", metavar="ADDRESS",
+                     help="split the policy solves and the candidate scoring across a Dask "
+                          "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "
+                          "machine (needs bayesirl[cluster]; same suggestions as without)")
     chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
                "structural identifiability findings, without sampling",
                "bayesirl check park.toml walks.csv", _check)

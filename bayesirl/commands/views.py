@@ -74,6 +74,11 @@ def suggest_command(args) -> int:
     except ImportError:
         raise RuntimeError("this installation has no demonstration designer "
                            "(bayesirl.design)") from None
+    scheduler = getattr(args, "scheduler", None)
+    if scheduler is not None:  # a malformed address is refused before the run is read
+        from bayesirl.posterior.cluster import check_arguments
+
+        check_arguments(scheduler, None, False, None)
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = _load_posterior(run, summary)
@@ -86,7 +91,8 @@ def suggest_command(args) -> int:
               "budget": args.budget, "target": args.target, "seed": args.seed}
     if "progress" in inspect.signature(design.suggest).parameters:
         kwargs["progress"] = not args.quiet
-    records = design.suggest(posterior, **kwargs)
+    where = {} if scheduler is None else {"cluster": scheduler}  # not a setting of the result
+    records = design.suggest(posterior, **kwargs, **where)
     rows = [{k: _field(r, k) for k in ("candidate", "gain", "stderr", "target_sd")}
             for r in records]
     write_json(run.suggestions, {"settings": {k: v for k, v in kwargs.items()

@@ -2,16 +2,20 @@
 
 from __future__ import annotations
 
+import os
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import NamedTuple
 
 import numpy as np
 
 from bayesirl.design import estimators as est
-from bayesirl.design.kernels import trajectory_loglik
+from bayesirl.design.batch import Batch, outer_samples
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
+from bayesirl.design.work import LocalBackend, groups
 from bayesirl.errors import InputError
-from bayesirl.kernels import sample_episodes
+from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.progress import StatusLine
 
 KINDS = ("start-states", "query-states")
@@ -77,77 +81,23 @@ def _check_budget(budget, n_candidates: int) -> int:
     return int(budget)
 
 
-class _Batch:
-    """Outer samples, simulated demonstrations and the log-likelihood of earlier picks."""
-
-    def __init__(self, policies, start_states, length, n_outer, rng) -> None:
-        self.policies = policies
-        n = policies.n
-        self.outer = np.sort(rng.choice(n, size=n_outer, replace=n_outer > n)).astype(np.int64)
-        self.prev = np.zeros((n_outer, n))
-        self.rng = rng
-        c = start_states.shape[0]
-        self.start_states = start_states
-        self.states = np.empty((c, n_outer, length + 1), dtype=np.int64)
-        self.actions = np.empty((c, n_outer, length), dtype=np.int64)
-        if c:
-            self._simulate(np.arange(c))
-
-    def add_start(self, c: int) -> None:
-        """Condition on the simulated demonstrations of start candidate ``c``."""
-        for m0, block in self.policies.chunks():
-            ll = trajectory_loglik(block, self.states[c], self.actions[c])
-            self.prev[:, m0:m0 + block.shape[0]] += ll.T
-        # A second demonstration from the same start is a fresh, independent outcome.
-        self._simulate(np.array([c]))
-
-    def _simulate(self, which: np.ndarray) -> None:
-        tm = self.policies.mdp.transitions
-        starts = np.ascontiguousarray(self.start_states[which])
-        length = self.actions.shape[2]
-        for j, m in enumerate(self.outer):
-            pol = np.exp(self.policies.one(int(m)))
-            u = self.rng.random((which.shape[0], length, 2))
-            s, a = sample_episodes(tm.indptr, tm.indices, tm.data, pol, starts, length, u)
-            self.states[which, j], self.actions[which, j] = s, a
-
-    def add_query(self, state: int) -> None:
-        """Condition on one simulated answer at ``state`` per outer sample."""
-        n_a = self.policies.mdp.n_actions
-        answers = np.empty(self.outer.shape[0], dtype=np.int64)
-        for j, m in enumerate(self.outer):
-            p = np.exp(self.policies.one(int(m))[0, state])
-            answers[j] = min(int(np.searchsorted(np.cumsum(p), self.rng.random())), n_a - 1)
-        for m0, block in self.policies.chunks():
-            self.prev[:, m0:m0 + block.shape[0]] += block[:, 0, state, answers].T
-
-
-def _step_scores(batch, kinds, states, g, first: bool) -> est.Scores:
+def _step_scores(backend, batch, kinds, states, first: bool) -> est.Scores:
     """Scores of every candidate given the picks so far (first step: exact for queries)."""
     n = states.shape[0]
+    is_q = np.array([k == "query" for k in kinds], dtype=bool)
+    q_index = np.flatnonzero(is_q)
+    work = groups("start", batch.start_index, batch.states, batch.actions)
+    work += groups("query", q_index, states[q_index])
     gain, stderr, sd = np.zeros(n), np.zeros(n), np.full(n, np.nan)
-    is_q = np.array([k == "query" for k in kinds])
-    policies = batch.policies
-    gg = np.zeros(policies.n) if g is None else g
-    if is_q.any():
-        q_states = states[is_q]
-        if first:
-            sc = est.query_first(policies, q_states, gg)
-        else:
-            sc = est.query_given(policies, q_states, gg, batch.prev)
-        gain[is_q], stderr[is_q], sd[is_q] = sc
-    if (~is_q).any():
-        sc = est.start_given(policies, batch.states, batch.actions, gg, batch.prev, batch.outer)
-        gain[~is_q], stderr[~is_q], sd[~is_q] = sc
-    if g is None:
-        sd[:] = np.nan
+    for grp, sc in zip(work, backend.score(work, batch.prev, first), strict=True):
+        gain[grp.index], stderr[grp.index], sd[grp.index] = sc
     return est.Scores(gain, stderr, sd)
 
 
 def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
             length: int | None = None, n_outer: int = 64, max_draws: int | None = None,
             chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES,
-            progress: bool = False) -> list[Suggestion]:
+            progress: bool = False, cluster=None) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -164,13 +114,25 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
         Also report the expected posterior sd of this quantity after each pick, by
         importance reweighting of the existing draws.
     seed : int
-        Seeds the outer samples and the simulated outcomes (``numpy.random.Generator``).
+        Seeds the outer samples and the simulated outcomes: each comes from its own child
+        of ``numpy.random.SeedSequence(seed)`` (per candidate, per pick), so the result
+        depends on the seed alone, not on the order or the place of the work.
     length : demonstration length (default: the median demonstrated length).
     n_outer : outer samples of the nested Monte-Carlo estimate (simulated outcomes).
     max_draws : use at most this many evenly spaced posterior draws (default: all).
     chunk_bytes, cache_bytes : memory bounds for the per-draw policies.
     progress : bool
         A status line (greedy step, per-draw policy solves) on a terminal; never elsewhere.
+    cluster : str or distributed.Client, optional
+        Split the work across a Dask cluster: ``"local"`` (a ``LocalCluster`` of processes
+        for this call), a scheduler address (``"tcp://host:8786"``) or a
+        ``distributed.Client``. The problem is sent to every worker once; the per-draw
+        policy solves run as one task per block of draws (fixed blocks of up to
+        ``policies.BLOCK_DRAWS`` draws, each starting cold) and each greedy step scores
+        candidates in tasks of ``work.CANDIDATE_CHUNK``. A local run uses the same blocks
+        and groups, so the same seed gives bit-identical suggestions with or without a
+        cluster, whatever its number of workers. The greedy picks stay sequential. Needs
+        ``bayesirl[cluster]``.
 
     Returns
     -------
@@ -180,6 +142,11 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
         step are exact over actions given the draws; ``stderr`` is then their error from
         the finite set of draws (treated as independent). Other gains are nested
         Monte-Carlo estimates and ``stderr`` is the outer-sample standard error.
+
+    Raises
+    ------
+    InputError
+        Bad arguments, or a cluster that cannot be reached or runs another version.
     """
     lik = posterior.model.likelihood
     mdp = lik.mdp
@@ -188,37 +155,61 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     length = _demo_length(mdp, lik.demos, length)
     if int(n_outer) != n_outer or n_outer < 2:
         raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
+    if cluster is not None:
+        dask_cluster.check_arguments(cluster, None, False, None)
     weights, betas = posterior_draws(posterior, max_draws)
     g = target_values(posterior, weights, target)
     policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    outer = outer_samples(policies.n, int(n_outer), seed)
+    gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)
     try:
-        return _greedy(policies, kinds, states, explicit, budget, length, n_outer, g, seed,
-                       status)
+        with _backend(cluster, policies, gg, outer) as backend:
+            return _greedy(backend, policies, kinds, states, explicit, budget, length, g,
+                           seed, status)
     finally:
         status.close()
 
 
-def _greedy(policies, kinds, states, explicit, budget, length, n_outer, g, seed,
+@contextmanager
+def _backend(cluster, policies, g, outer) -> Iterator[object]:
+    if cluster is None:
+        yield LocalBackend(policies, g, outer)
+        return
+    from bayesirl.design.cluster import DaskBackend
+
+    with dask_cluster.connect(cluster, os.cpu_count() or 1) as client:
+        dask_cluster.check_workers(client)
+        backend = DaskBackend(client, policies, g, outer)
+        try:
+            yield backend
+        finally:
+            backend.close()
+
+
+def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
             status) -> list[Suggestion]:
     """The greedy batch: score every candidate, keep the best, condition on it, repeat."""
     step = 1
     n_draws = policies.n
+    local = isinstance(backend, LocalBackend)
 
     def show(solves: int) -> None:
-        status.update(f"suggest: pick {step}/{budget}, policy solves {solves} "
-                      f"(draws: {n_draws})")
+        work = f"policy solves {solves}" if local else "tasks on the cluster"
+        status.update(f"suggest: pick {step}/{budget}, {work} (draws: {n_draws})")
 
     policies.on_solve = show
-    rng = np.random.default_rng(seed)
-    start_states = states[np.array([k == "start" for k in kinds], dtype=bool)]
-    batch = _Batch(policies, start_states, length, int(n_outer), rng)
+    is_start = np.array([k == "start" for k in kinds], dtype=bool)
+    start_index = np.flatnonzero(is_start)
+    batch = Batch(backend, start_index, states[start_index], length, seed)
     sd_now = float(np.std(g, ddof=1)) if g is not None else np.nan
-    start_pos = np.cumsum([k == "start" for k in kinds]) - 1
+    start_pos = np.cumsum(is_start) - 1
     picks: list[Suggestion] = []
     for step in range(1, budget + 1):
         show(policies.solves)
-        sc = _step_scores(batch, kinds, states, g, first=step == 1)
+        sc = _step_scores(backend, batch, kinds, states, first=step == 1)
+        if g is None:
+            sc.target_sd[:] = np.nan
         order = np.argsort(-sc.gain, kind="stable")
         best = int(order[0])
         row = _record(sc, best, kinds, states, explicit, sd_now, step)
@@ -229,7 +220,7 @@ def _greedy(policies, kinds, states, explicit, budget, length, n_outer, g, seed,
         if kinds[best] == "start":
             batch.add_start(int(start_pos[best]))
         else:
-            batch.add_query(int(states[best]))
+            batch.add_query(int(states[best]), step)
     raise AssertionError("unreachable")  # pragma: no cover
 
 

@@ -164,6 +164,9 @@ CASES = [
     ("resume-with-overrides", {}, ["fit", "--resume", "run", "--draws", "5"],
      ["continues with the run's own settings; drop --draws"]),
     ("unknown-example", {}, ["example", "volcano", "out"], ["unknown example 'volcano'"]),
+    ("suggest-bad-scheduler", {}, ["suggest", "nowhere", "--scheduler", "not an address"],
+     ["bayesirl suggest: error: cluster: expected 'local', a scheduler address",
+      "'not an address'"]),
     ("example-run-exists", {"ex/run/x.txt": "x"}, ["example", "park", "ex"],
      ["ex/run: already exists", "--force"]),
 ]

@@ -165,6 +165,27 @@ def test_suggest_ranks_candidates(tiny, capsys):
     assert main(["suggest", str(run), "--target", "nope"]) == 2
 
 
+def test_suggest_scheduler_reaches_the_designer(tiny, monkeypatch, capsys):
+    import bayesirl.design as design
+
+    assert build_parser().parse_args(["suggest", "r"]).scheduler is None
+    assert _fit(tiny, "run", "--chains", "1", "--draws", "20", "--warmup", "20") == 0
+    run = tiny[0].parent / "run"
+    seen = []
+    real = design.suggest
+
+    def spy(posterior, **kwargs):
+        seen.append(kwargs.pop("cluster", None))
+        return real(posterior, **kwargs)
+
+    monkeypatch.setattr(design, "suggest", spy)
+    for extra in (["--scheduler", "local"], []):
+        assert main(["--quiet", "suggest", str(run), "--budget", "1", *extra]) == 0
+        settings = json.loads((run / "suggestions.json").read_text())["settings"]
+        assert "cluster" not in settings and settings["budget"] == 1
+    assert seen == ["local", None]
+
+
 def test_problem_settings_reach_the_sampler(tiny, monkeypatch, capsys):
     import bayesirl
     from bayesirl.errors import InputError
