@@ -9,7 +9,7 @@ its seed (the scheduler's ``distributed.scheduler.allowed-failures``, 3 by defau
 how often); the chains that finished elsewhere are kept.
 
 Dask is optional: it is imported here, lazily, only when ``sample(..., cluster=...)`` is
-used. See docs/cluster.md.
+used. See the README, "Running chains on a cluster".
 """
 
 from __future__ import annotations
