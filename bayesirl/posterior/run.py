@@ -95,7 +95,8 @@ def sample(
         this run, closed afterwards), a scheduler address (``"tcp://host:8786"``) or a
         ``distributed.Client``. The same seed gives the same draws as a local run; a chain
         whose worker dies is rerun from its seed. Needs ``bayesirl[cluster]``; cannot be
-        combined with ``checkpoint``, ``resume`` or ``processes`` (see the README, "Running chains on a cluster").
+        combined with ``checkpoint``, ``resume`` or ``processes`` (see the README,
+        "Running chains on a cluster").
 
     Returns
     -------
