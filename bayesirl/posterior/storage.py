@@ -56,7 +56,7 @@ def problem_meta(model: PosteriorModel) -> dict:
     mdp = lik.mdp
     return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
             "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
-            "tol": lik.tol, "gradient_rtol": lik.gradient_rtol,
+            "tol": lik.tol, "gradient_rtol": getattr(lik, "gradient_rtol", None),
             "likelihood_rationality": lik.rationality,
             "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
 
@@ -84,8 +84,9 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
 
 
 def _gradient_rtol(pm: dict) -> dict:
-    # Files written before the adjoint tolerance was a setting used 1e-11.
-    return {"gradient_rtol": pm.get("gradient_rtol", 1e-11)}
+    # Absent from older files and from likelihood wrappers without the setting: the default.
+    value = pm.get("gradient_rtol")
+    return {} if value is None else {"gradient_rtol": value}
 
 
 def write_netcdf(idata, path: Path) -> Path:

@@ -145,7 +145,8 @@ def test_load_restores_draws_problem_and_model(case, tmp_path):
     assert lik1.demos.n_episodes == lik0.demos.n_episodes
     for (s0, a0), (s1, a1) in zip(lik0.demos.episodes, lik1.demos.episodes, strict=True):
         assert np.array_equal(s0, s1) and np.array_equal(a0, a1)
-    assert (lik1.q, lik1.tol, lik1.rationality) == (lik0.q, lik0.tol, lik0.rationality)
+    assert (lik1.q, lik1.tol, lik1.gradient_rtol, lik1.rationality) == \
+        (lik0.q, lik0.tol, lik0.gradient_rtol, lik0.rationality)
 
     assert _same_prior(back.model.prior, post.model.prior)
     if post.model.rationality_prior is None:
