@@ -189,8 +189,10 @@ def measure_size(n_states: int, draws: int = DRAWS, warmup: int = WARMUP, chains
     del cold  # its warm starts would otherwise be copied into every forked worker
     clock.line(f"{tag}: built in {build_s:.1f} s, first evaluation {first_s:.2f} s; fitting "
                f"{chains} chains x {draws} draws after {warmup} warmup (started {_now()})")
+    load_before = os.getloadavg()[0]  # other work on the machine inflates the wall times
     with _heartbeat(clock, f"{tag} fit", HEARTBEAT):
         fit, post = _fit(BoltzmannLikelihood(mdp, demos), draws, warmup, chains, processes)
+    fit["load_1min"] = [load_before, os.getloadavg()[0]]
     clock.line(f"{tag}: fit {fit['wall_s']:.1f} s, min bulk-ESS {fit['min_bulk_ess']:.0f}, "
                f"ESS/s {fit['ess_per_s']:.3g}, max R-hat {fit['max_rhat']:.3f}, peak "
                f"{fit['peak_main_bytes'] / 2**20:.0f} + {fit['peak_child_bytes'] / 2**20:.0f} MB")

@@ -232,9 +232,22 @@ def render(results: dict) -> str:
         f"{s['default_draws']} draws after W = {s['default_warmup']} warmup iterations.",
         "",
     ]
-    for part in (_fits, _memory, _gradients, _scaling):
+    for part in (_fits, _memory, _gradients, _scaling, _load):
         lines += part(rows)
     return "\n".join(lines) + "\n"
+
+
+def _load(rows) -> list[str]:
+    # The machine's 1-minute load average at the start and end of each fit: above the
+    # number of worker processes, other work shared the cores and the times are upper bounds.
+    seen = [(r["states"], r["load_1min"]) for r in rows if r.get("load_1min")]
+    if not seen:
+        return []
+    parts = [f"S = {n}: {a:.1f} -> {b:.1f}" for n, (a, b) in seen]
+    return ["## Load during the fits", "",
+            "1-minute load average at the start and end of each fit (2 worker processes "
+            "keep it near 2; more means other work shared the cores and the wall times are "
+            "upper bounds): " + "; ".join(parts) + ".", ""]
 
 
 def write(results: dict, folder: Path) -> tuple[Path, Path]:

@@ -22,7 +22,7 @@ ROW_KEYS = {
     "min_bulk_ess", "min_tail_ess", "ess_per_s", "evals_per_ess", "max_rhat", "divergences",
     "mean_tree_depth", "mean_leapfrog", "step_sizes", "peak_main_bytes", "peak_child_bytes",
     "peak_sum_bytes", "build_s", "first_eval_s", "warm_s_per_gradient", "fit_s_per_gradient",
-    "profile", "machine", "date",
+    "profile", "machine", "date", "load_1min",
 }
 
 
@@ -48,6 +48,7 @@ def test_the_json_has_every_field_of_a_row(folder):
     assert 0 < row["sampling_s"] < row["wall_s"]
     assert len(row["step_sizes"]) == 2 and row["mean_leapfrog"] >= 1
     assert row["peak_child_bytes"] > 0 and row["peak_main_bytes"] > 0
+    assert len(row["load_1min"]) == 2 and min(row["load_1min"]) >= 0
     if memory.available():  # the workers' PSS: at least 1 + 2 processes were sampled
         assert row["pss_processes"] == 3
         assert 0 < row["peak_total_pss_bytes"] < row["peak_sum_bytes"]
@@ -60,6 +61,7 @@ def test_the_markdown_has_the_scaling_table_and_the_main_report_is_untouched(fol
     text = (folder / "benchmark-large.md").read_text()
     assert "## Scaling" in text and "| states | states ratio |" in text
     assert "W = 300" in text and "## Peak memory" in text
+    assert "## Load during the fits" in text
     assert (folder / "benchmark.md").read_text() == "the main report\n"
 
 
