@@ -47,10 +47,8 @@ def predict(path, z):
         return vs[b], ms[b]
     directions = np.stack([zs[j] - zs[b] for j in others], axis=1)
     coef = np.linalg.lstsq(directions, z - zs[b], rcond=1e-6)[0]
-    values = vs[b].copy()
-    adjoint = None if ms[b] is None else ms[b].copy()
+    values, adjoint = vs[b].copy(), ms[b].copy()
     for c, j in zip(coef, others, strict=True):
         values += c * (vs[j] - vs[b])
-        if adjoint is not None and ms[j] is not None:
-            adjoint += c * (ms[j] - ms[b])
+        adjoint += c * (ms[j] - ms[b])
     return values, adjoint

@@ -70,7 +70,7 @@ def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
         m = adjoint_dense(mdp.dynamics.dense, sol.policy_by_action, mdp.discount, cache["rho"])
         grad = counts.feature_total + policy_feature_sum(mdp, sol.policy, m)
         return loglik, beta * grad
-    m0 = cache["adjoint"] if guess is None or guess[1] is None else guess[1]
+    m0 = cache["adjoint"] if guess is None else guess[1]
     m, _ = solve_discounted(
         mdp.dynamics.policy_matrix_by_action(sol.policy_by_action), mdp.discount, cache["rho"],
         x0=m0, rtol=cache["gradient_rtol"], transpose=True, precond=cache["precond"],
