@@ -1,11 +1,13 @@
 """Benchmarks as code: ``bayesirl bench`` runs them and writes ``reports/benchmark.*``.
 
 ``bayesirl bench --large`` runs the large-problem suite instead (``bench/large.py``) and
-writes ``reports/benchmark-large.*``, merging rows by problem size.
+writes ``reports/benchmark-large.*``, merging rows by problem size; ``benchmark.md`` carries
+a one-line-per-size summary of those rows (``large_report.overview``).
 """
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
@@ -26,7 +28,15 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
-    return report.write(results, folder)
+    return report.write(results, folder, large_report.overview(large_report.load(folder)))
+
+
+def _refresh_overview(folder: Path) -> None:
+    """Re-render ``benchmark.md`` with the new large rows, if a ``benchmark.json`` is there."""
+    path = folder / "benchmark.json"
+    if path.exists():
+        results = json.loads(path.read_text(encoding="utf-8"))
+        report.write(results, folder, large_report.overview(large_report.load(folder)))
 
 
 def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | None = None,
@@ -37,13 +47,14 @@ def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | Non
     Parameters
     ----------
     folder : Path
-        Receives ``benchmark-large.md`` and ``.json`` (``benchmark.md`` is left alone).
+        Receives ``benchmark-large.md`` and ``.json``; an existing ``benchmark.md`` is
+        re-rendered from its ``benchmark.json`` with the large rows' section.
     sizes : iterable of int, optional
         State counts to (re)measure (default ``large.SIZES``: 10^3, 10^4, 10^5); rows of
         other sizes already in the JSON are kept.
     draws, warmup, chains : int, optional
         Per chain (defaults ``large.DRAWS``, ``large.WARMUP``, ``large.CHAINS``: 1000,
-        500, 4).
+        300, 4).
     log : callable
         One line per phase.
 
@@ -70,6 +81,7 @@ def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | Non
 
     def write(results):
         paths[:] = large_report.write(results, folder)
+        _refresh_overview(folder)
         log(f"large: wrote {paths[0]} and {paths[1]}")
 
     large.run(sizes, draws=draws, warmup=warmup, chains=chains, log=log, on_row=write)

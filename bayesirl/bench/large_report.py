@@ -195,6 +195,48 @@ def summary(rows: list[dict]) -> str:
             f"gradient grows {nt:.1f}x, about S^{slope:.2f}, and ESS per second {change}.")
 
 
+def overview(results: dict | None) -> list[str]:
+    """The large-problem section of ``benchmark.md``: one line per size, then the scaling.
+
+    Parameters
+    ----------
+    results : dict or None
+        A large-benchmark result (:func:`load`); None gives no lines.
+
+    Returns
+    -------
+    list of str
+        Markdown lines; the full tables stay in ``benchmark-large.md``.
+    """
+    if not results or not results.get("rows"):
+        return []
+    default = (results["settings"]["default_draws"], results["settings"]["default_warmup"])
+    lines = [
+        "## Large problems",
+        "",
+        f"From `bayesirl bench --large` (all fields in [{MD_NAME}]({MD_NAME})): a full NUTS "
+        "fit of the random sparse MDP (A = 4, 4 successors, F = 8, discount 0.95, 200 "
+        "demonstrations of 100 steps) on the default worker processes. Rows marked *reduced* "
+        "ran fewer draws or warmup iterations than the default run; their ESS per second "
+        "and gradients per ESS are rates and compare across rows, their wall time does not.",
+        "",
+        "| states | chains x draws (warmup) | wall min | min bulk-ESS | ESS/s | gradients/ESS "
+        "| max R-hat | total PSS MB | warm ms/gradient | 1-min load |",
+        "|---|---|---|---|---|---|---|---|---|---|",
+    ]
+    for r in results["rows"]:
+        mark = "" if (r["draws"], r["warmup"]) == default else ", *reduced*"
+        load = r.get("load_1min")
+        lines.append(
+            f"| {r['states']} | {r['chains']} x {r['draws']} ({r['warmup']}{mark}) | "
+            f"{r['wall_s'] / 60:.1f} | {_fmt(r['min_bulk_ess'], '.0f')} | "
+            f"{_fmt(r['ess_per_s'], '.3g')} | {_fmt(r['evals_per_ess'], '.1f')} | "
+            f"{_fmt(r['max_rhat'], '.3f')} | {_mb(r.get('peak_total_pss_bytes'))} | "
+            f"{r['warm_s_per_gradient'] * 1e3:.1f} | "
+            f"{'-' if not load else f'{load[0]:.1f} / {load[1]:.1f}'} |")
+    return lines + ["", summary(results["rows"]), ""]
+
+
 def _other_machines(rows, m: dict) -> list[str]:
     other = [str(r["states"]) for r in rows if r.get("machine", m) != m]
     if not other:

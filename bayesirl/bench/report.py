@@ -145,8 +145,8 @@ def _design_md(d: dict) -> list[str]:
     return lines
 
 
-def render(results: dict) -> str:
-    """Markdown for every suite present in ``results``."""
+def render(results: dict, appendix: list[str] = ()) -> str:
+    """Markdown for every suite present in ``results``, then the ``appendix`` lines."""
     m = results["machine"]
     lines = [
         "# bayesirl benchmark",
@@ -163,12 +163,12 @@ def render(results: dict) -> str:
         lines += _sampler_md(results["sampler"])
     if "design" in results:
         lines += _design_md(results["design"])
-    return "\n".join(lines) + "\n"
+    return "\n".join([*lines, *appendix]) + "\n"
 
 
-def write(results: dict, folder: Path) -> tuple[Path, Path]:
-    """Write both files; returns their paths."""
+def write(results: dict, folder: Path, appendix: list[str] = ()) -> tuple[Path, Path]:
+    """Write both files (``appendix``: extra markdown lines); returns their paths."""
     md, js = folder / "benchmark.md", folder / "benchmark.json"
     write_json(js, results, sort_keys=True)
-    write_text(md, render(results))
+    write_text(md, render(results, appendix))
     return md, js

@@ -10,7 +10,7 @@ import pytest
 import bayesirl.likelihood.soft as lik_soft
 import bayesirl.solver.soft as solver_soft
 from bayesirl.bench import large, memory, run_large
-from bayesirl.bench.large_report import merge, render, summary
+from bayesirl.bench.large_report import merge, overview, render, summary
 from bayesirl.bench.solverwork import profile
 from bayesirl.cli import main
 from bayesirl.errors import InputError
@@ -156,3 +156,29 @@ def test_an_unreadable_old_result_fails_before_anything_runs(tmp_path):
     (tmp_path / "benchmark-large.json").write_text("{not json")
     with pytest.raises(InputError, match="benchmark-large.json"):
         run_large(tmp_path, sizes=[10**5], log=lambda _: None)  # would take an hour
+
+
+def test_the_main_report_carries_the_large_rows_when_its_json_is_there(folder, tmp_path):
+    # The issue asks for the large numbers in benchmark.md itself: a large run re-renders it
+    # from benchmark.json (here a report with no suites) plus one line per size.
+    from bayesirl.bench import _refresh_overview
+    from bayesirl.bench.report import machine
+
+    (tmp_path / "benchmark-large.json").write_text((folder / "benchmark-large.json").read_text())
+    (tmp_path / "benchmark.json").write_text(json.dumps({"machine": machine(), "quick": True}))
+    _refresh_overview(tmp_path)
+    text = (tmp_path / "benchmark.md").read_text()
+    assert text.startswith("# bayesirl benchmark\n") and "## Large problems" in text
+    assert f"| {S} | 2 x 20 (20, *reduced*) |" in text
+    assert "[benchmark-large.md](benchmark-large.md)" in text
+
+
+def test_overview_marks_only_rows_off_the_default_run(folder):
+    results = json.loads((folder / "benchmark-large.json").read_text())
+    row = results["rows"][-1]  # the tiny run (an earlier test may have added a row before it)
+    results["rows"] = [row, {**row, "states": 2 * S, "draws": large.DRAWS,
+                             "warmup": large.WARMUP, "load_1min": None}]
+    lines = "\n".join(overview(results))
+    assert lines.count("*reduced*") == 2  # the prose's mention and the tiny run's row
+    assert f"| {2 * S} | 2 x {large.DRAWS} ({large.WARMUP}) |" in lines
+    assert overview(None) == [] and overview({"rows": []}) == []
