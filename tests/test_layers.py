@@ -13,6 +13,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "bayesirl"
 LAYERS = {
     "errors": 0,
     "files": 0,
+    "threads": 0,
     "kernels": 1,
     "solver": 2,
     "model": 3,

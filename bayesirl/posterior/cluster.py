@@ -27,6 +27,7 @@ import numpy as np
 from bayesirl.errors import InputError
 from bayesirl.posterior.chains import _LIK, ChainRecord, run_job
 from bayesirl.posterior.interrupt import Stopper
+from bayesirl.threads import one_blas_thread
 
 # Seconds to wait for a scheduler to answer before refusing its address.
 CONNECT_TIMEOUT = 20.0
@@ -149,7 +150,8 @@ def chain_task(blob: bytes, k: int, seed: np.random.SeedSequence,
     """Run chain ``k`` to the end on a worker; return its record and the worker's address."""
     from distributed import get_worker
 
-    record = run_job(blob, k, seed, settings, None, Stopper(), _ignore, None)
+    with one_blas_thread():  # the same rounding as a local run (bayesirl.threads)
+        record = run_job(blob, k, seed, settings, None, Stopper(), _ignore, None)
     # The likelihood's warm starts matter only for a checkpoint (none on a cluster); leaving
     # them on the worker keeps large problems' value vectors and LU matrices off the wire.
     arrays = {name: a for name, a in record.arrays.items() if not name.startswith(_LIK)}

@@ -21,6 +21,7 @@ from multiprocessing import get_all_start_methods, get_context
 
 from bayesirl.posterior.chains import run_job
 from bayesirl.posterior.interrupt import Stopper
+from bayesirl.threads import one_blas_thread
 
 _POLL = 0.05  # seconds between checks of the stop flag while waiting for messages
 _GRACE = 10.0  # seconds workers get to stop after being told, before they are killed
@@ -32,6 +33,7 @@ def _worker(w, jobs, blob, settings, saved, stopper, q, interval) -> None:
 
     try:
         stopper.ensure_installed()
+        one_blas_thread()  # for the worker's life (bayesirl.threads: 5x at 10^5 states)
         for k, seed in jobs:
             if stopper.stopped:
                 break

@@ -22,6 +22,7 @@ from bayesirl.posterior.model import PosteriorModel
 from bayesirl.posterior.parallel import run_parallel
 from bayesirl.posterior.partial import Book, finish
 from bayesirl.posterior.progress import ChainProgress
+from bayesirl.threads import one_blas_thread
 
 # Seconds between checkpoint writes (and between state reports from workers).
 CHECKPOINT_EVERY = 2.0
@@ -137,7 +138,7 @@ def sample(
         records = dask_cluster.run_on_cluster(cluster, blob, seeds, settings, progress)
         return finish(model, records, settings, int(seed), time.perf_counter() - t0, book,
                       None)
-    with Stopper() as stopper:
+    with Stopper() as stopper, one_blas_thread():
         try:
             if n_proc <= 1:
                 records = _run_serial(blob, seeds, settings, saved, stopper, book, interval)

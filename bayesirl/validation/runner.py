@@ -27,6 +27,7 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
+from bayesirl.threads import one_blas_thread
 from bayesirl.validation.ranks import (
     Uniformity,
     choose_bins,
@@ -183,6 +184,7 @@ _JOB: dict[str, Any] = {}
 
 
 def _install(problem: Any, settings: SBCSettings) -> None:
+    one_blas_thread()  # for the pool worker's life: no spinning BLAS threads (bayesirl.threads)
     _JOB["problem"], _JOB["settings"] = problem, settings
 
 
