@@ -28,6 +28,11 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
+    return _write_main(results, folder)
+
+
+def _write_main(results: dict, folder: Path) -> tuple[Path, Path]:
+    """Write ``benchmark.*`` for ``results``, with the large rows' section from ``folder``."""
     return report.write(results, folder, large_report.overview(large_report.load(folder)))
 
 
@@ -35,8 +40,7 @@ def _refresh_overview(folder: Path) -> None:
     """Re-render ``benchmark.md`` with the new large rows, if a ``benchmark.json`` is there."""
     path = folder / "benchmark.json"
     if path.exists():
-        results = json.loads(path.read_text(encoding="utf-8"))
-        report.write(results, folder, large_report.overview(large_report.load(folder)))
+        _write_main(json.loads(path.read_text(encoding="utf-8")), folder)
 
 
 def run_large(folder: Path, sizes: Iterable[int] | None = None, draws: int | None = None,

@@ -172,12 +172,12 @@ def _scaling(rows) -> list[str]:
 
 
 def summary(rows: list[dict]) -> str:
-    """One sentence on how the cost per gradient and ESS per second grow with the states.
+    """How the cost per gradient and ESS per second grow, from each size to the next.
 
     Parameters
     ----------
     rows : list of dict
-        Rows sorted by states; the first and the last are compared.
+        Rows sorted by states; each is compared with the one before it.
 
     Returns
     -------
@@ -185,7 +185,10 @@ def summary(rows: list[dict]) -> str:
     """
     if len(rows) < 2:
         return f"Only S = {rows[0]['states']} measured so far: no scaling to report."
-    a, b = rows[0], rows[-1]
+    return " ".join(_growth(a, b) for a, b in zip(rows[:-1], rows[1:], strict=True))
+
+
+def _growth(a: dict, b: dict) -> str:
     ns = b["states"] / a["states"]
     nt = b["warm_s_per_gradient"] / a["warm_s_per_gradient"]
     slope = math.log(nt) / math.log(ns)

@@ -104,6 +104,16 @@ def test_summary_reports_the_growth_exponent():
     assert "no scaling" in summary(rows[:1])
 
 
+def test_summary_compares_each_size_with_the_one_before():
+    rows = [{"states": 10**3, "warm_s_per_gradient": 0.01, "ess_per_s": 40.0},
+            {"states": 10**4, "warm_s_per_gradient": 0.1, "ess_per_s": 20.0},
+            {"states": 10**5, "warm_s_per_gradient": 0.1, "ess_per_s": 40.0}]
+    text = summary(rows)
+    assert "From S = 1000 to 10000 (10x the states)" in text and "S^1.00" in text
+    assert "From S = 10000 to 100000" in text and "S^0.00" in text
+    assert "falls 2.0x" in text and "rises 2.0x" in text and "1000 to 100000" not in text
+
+
 def test_render_copes_with_nulls_from_strict_json(folder):
     results = json.loads((folder / "benchmark-large.json").read_text())
     results["rows"][0]["min_tail_ess"] = None
