@@ -150,8 +150,11 @@ def chain_task(blob: bytes, k: int, seed: np.random.SeedSequence,
     """Run chain ``k`` to the end on a worker; return its record and the worker's address."""
     from distributed import get_worker
 
-    with one_blas_thread():  # the same rounding as a local run (bayesirl.threads)
-        record = run_job(blob, k, seed, settings, None, Stopper(), _ignore, None)
+    # For the worker's life, not a `with` block: chain tasks running side by side in one
+    # worker's threads would otherwise undo each other's limit mid-chain. One thread keeps
+    # the rounding of a local run (bayesirl.threads); nanny-started workers have it already.
+    one_blas_thread()
+    record = run_job(blob, k, seed, settings, None, Stopper(), _ignore, None)
     # The likelihood's warm starts matter only for a checkpoint (none on a cluster); leaving
     # them on the worker keeps large problems' value vectors and LU matrices off the wire.
     arrays = {name: a for name, a in record.arrays.items() if not name.startswith(_LIK)}
