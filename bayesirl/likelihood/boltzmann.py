@@ -78,6 +78,9 @@ class BoltzmannLikelihood:
         self.max_linear_iterations = _count(max_linear_iterations, "max_linear_iterations")
         self._cache = self._new_cache()
         self.n_evaluations = 0
+        # Cumulative solver effort (soft model, discounted): Newton steps, mat-vecs, adjoint
+        # solves, cold retries after a failed warm start (soft.new_work). Read, never reset.
+        self.work = soft.new_work()
 
     def __getstate__(self) -> dict:
         # Warm starts (and the LU factorisation, which does not pickle) stay behind: a copy
@@ -130,7 +133,7 @@ class BoltzmannLikelihood:
         """Log-likelihood with gradients in ``weights`` and ``log(rationality)``."""
         w = self.mdp.check_weights(weights)
         beta = self.rationality if rationality is None else _positive(rationality)
-        loglik, grad_w = self._model.evaluate(self.mdp, self.counts, self._cache, w, beta)
+        loglik, grad_w = self._evaluate(w, beta, True)
         self.n_evaluations += 1
         return LikelihoodValue(float(loglik), grad_w, float(w @ grad_w))
 
@@ -138,11 +141,13 @@ class BoltzmannLikelihood:
         """Log-likelihood without the gradient (skips the adjoint solve)."""
         w = self.mdp.check_weights(weights)
         beta = self.rationality if rationality is None else _positive(rationality)
-        loglik, _ = self._model.evaluate(
-            self.mdp, self.counts, self._cache, w, beta, gradient=False
-        )
+        loglik, _ = self._evaluate(w, beta, False)
         self.n_evaluations += 1
         return float(loglik)
+
+    def _evaluate(self, w, beta, gradient):
+        return self._model.evaluate(self.mdp, self.counts, self._cache, w, beta, gradient,
+                                    self.work)
 
     def value_and_grad(self, weights) -> tuple[float, np.ndarray]:
         """``(log_likelihood, gradient in weights)`` at the default rationality."""

@@ -39,10 +39,11 @@ def _one_hot(greedy, n_a):
     return out
 
 
-def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
+def evaluate(mdp, counts, cache, w, beta, gradient: bool = True, work: dict | None = None):
     """Return ``(log L, dlogL/dw)``; updates the warm starts in ``cache``.
 
     The gradient costs little beside policy iteration here, so it is always computed.
+    ``work`` is accepted for the same signature as the soft model and left unchanged.
     """
     if mdp.horizon is not None:
         return _evaluate_finite(mdp, counts, w, beta)

@@ -66,7 +66,7 @@ cells = """
 
 {_SETTINGS}'''
 
-MACHINE_TOML = f'''# bayesirl problem: when to replace a wearing machine (invented data).
+MACHINE_TOML = '''# bayesirl problem: when to replace a wearing machine (invented data).
 title = "machine replacement"
 
 [model]
