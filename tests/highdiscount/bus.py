@@ -21,33 +21,25 @@ from __future__ import annotations
 import numpy as np
 
 from bayesirl import TabularMDP
+from bayesirl.bench.problems import BUS_BINS, BUS_TRUTH, bus_engine
 
-N_BINS = 90
-INCREMENTS = np.array([0.3919, 0.5953, 0.0128])
-TRUTH = np.array([2.6275, 9.7558])  # (theta1, RC)
+N_BINS = BUS_BINS
+TRUTH = BUS_TRUTH
 NAMES = ("theta1", "RC")
 
 
-def transitions(n: int = N_BINS) -> np.ndarray:
-    """``P[s, a, s']`` with a = 0 keep, 1 replace."""
-    p = np.zeros((n, 2, n))
-    for s in range(n):
-        for k, pk in enumerate(INCREMENTS):
-            p[s, 0, min(s + k, n - 1)] += pk
-            p[s, 1, min(k, n - 1)] += pk
-    return p
-
-
-def features(n: int = N_BINS) -> np.ndarray:
-    """``phi[s, a, :]``: keep -> (-0.001 x, 0), replace -> (0, -1)."""
-    phi = np.zeros((n, 2, 2))
-    phi[:, 0, 0] = -0.001 * np.arange(n)
-    phi[:, 1, 1] = -1.0
-    return phi
-
-
 def bus_mdp(discount: float) -> TabularMDP:
-    return TabularMDP(transitions(), features(), discount=discount, feature_names=NAMES)
+    return bus_engine(discount)
+
+
+def transitions() -> np.ndarray:
+    """``P[s, a, s']`` (a = 0 keep, 1 replace) as the reference solver reads it."""
+    return bus_mdp(0.9).transitions.toarray().reshape(N_BINS, 2, N_BINS)
+
+
+def features() -> np.ndarray:
+    """``phi[s, a, :]``: keep -> (-0.001 x, 0), replace -> (0, -1)."""
+    return np.asarray(bus_mdp(0.9).features_sa)
 
 
 def reference_solve(p, phi, theta, discount, steps: int = 60):
