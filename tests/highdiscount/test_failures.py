@@ -35,7 +35,7 @@ def test_the_same_data_with_enough_steps_samples(demos):
 
 def test_the_command_line_exits_1_with_what_to_change(tmp_path, capsys):
     rows = ["episode,step,state,action"]
-    rows += [f"e,{t},{s},{a}" for t, (s, a) in enumerate(zip([0, 1, 2], [0, 0, 1]))]
+    rows += [f"e,{t},{s},{a}" for t, (s, a) in enumerate(zip([0, 1, 2], [0, 0, 1], strict=True))]
     rows.append("e,3,0,")
     (tmp_path / "d.csv").write_text("\n".join(rows) + "\n")
     np.savez(tmp_path / "bus.npz", transitions=bus.transitions(), features=bus.features())
