@@ -15,7 +15,7 @@ import numpy as np
 from bayesirl.errors import SolverError
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
 from bayesirl.likelihood.soft import ADJOINT_RTOL, MAX_LINEAR_ITERATIONS, MAX_NEWTON_STEPS
-from bayesirl.solver import logsumexp_rows, policy_iteration, solve_discounted
+from bayesirl.solver import Preconditioner, logsumexp_rows, policy_iteration, solve_discounted
 from bayesirl.solver.finite import forward_adjoint
 
 
@@ -24,7 +24,7 @@ def new_cache(mdp, counts, tol: float = 0.0, gradient_rtol: float = ADJOINT_RTOL
               max_matvecs: int = MAX_LINEAR_ITERATIONS) -> dict:
     """Warm start: the previous greedy policy and adjoint (policy iteration is exact)."""
     return {"greedy": None, "adjoint": None, "gradient_rtol": gradient_rtol,
-            "max_matvecs": max_matvecs}
+            "max_matvecs": max_matvecs, "precond": Preconditioner()}
 
 
 def _boltzmann(q_star, beta):
@@ -67,15 +67,19 @@ def _adjoint(mdp, greedy, source, cache):
     matrix = mdp.dynamics.greedy_matrix(greedy)
 
     def solve(x0):
+        # Preconditioned like the soft model's adjoint: near discount 1 a deterministic
+        # policy's I - g P_g^T stalls plain GMRES (seen at 0.9999 on the bus-engine model).
         return solve_discounted(matrix, mdp.discount, source, x0=x0,
                                 rtol=cache["gradient_rtol"], transpose=True,
-                                maxiter=cache["max_matvecs"], what="optimal-Q adjoint")[0]
+                                precond=cache["precond"], maxiter=cache["max_matvecs"],
+                                what="optimal-Q adjoint")[0]
 
     try:
         return solve(cache["adjoint"])
     except SolverError:
-        if cache["adjoint"] is None:
+        if cache["adjoint"] is None and cache["precond"].lu is None:
             raise
+    cache["precond"] = Preconditioner()
     return solve(None)
 
 
