@@ -66,3 +66,34 @@ def test_step_size_search_stops_at_the_floor_instead_of_underflowing():
     step = find_reasonable_step_size(rng, np.zeros(2), 0.0, np.zeros(2), never, np.ones(2),
                                      STEP_MIN * 4, max_iter=100)
     assert STEP_MIN <= step <= STEP_MIN * 4
+
+
+class _FailsBeyond:
+    """A real likelihood whose solve 'fails' where the first weight exceeds ``edge``."""
+
+    def __init__(self, lik, edge):
+        self.lik, self.edge = lik, edge
+
+    def __getattr__(self, name):
+        if name == "lik":  # during unpickling, before __dict__ is restored
+            raise AttributeError(name)
+        return getattr(self.lik, name)
+
+    def evaluate(self, weights, rationality=None):
+        if weights[0] > self.edge:
+            raise SolverError("stand-in failure")
+        return self.lik.evaluate(weights, rationality)
+
+    def value(self, weights, rationality=None):
+        return self.evaluate(weights, rationality).loglik
+
+
+def test_failures_inside_trajectories_are_rejections_not_crashes(demos):
+    # The edge sits inside the posterior's bulk (theta1 is about 2.6 +- 1 here), so many
+    # trajectories cross it: each crossing is a rejected, counted proposal; chains go on.
+    lik = _FailsBeyond(BoltzmannLikelihood(bus.bus_mdp(0.9999), demos), edge=2.0)
+    post = sample(lik, chains=2, draws=100, warmup=100, progress=False, processes=1)
+    assert post.n_draws == 100
+    assert sum(post.settings["solver_failures"]) > 0
+    assert post.diagnostics.divergences > 0  # the failures show as divergences
+    assert np.all(post.weights[..., 0] <= 2.0)  # never accepted beyond the edge
