@@ -178,6 +178,9 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         "one after another; ratios compare medians.",
         "",
     ]
+    if results.get("kept_from_earlier"):
+        lines += [f"Not re-measured in this run (rows kept from the previous one, at an "
+                  f"earlier version): {', '.join(results['kept_from_earlier'])}.", ""]
     if "engine" in results:
         lines += _engine_md(results["engine"])
     if "sampler" in results:

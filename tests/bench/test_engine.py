@@ -26,3 +26,19 @@ def test_the_report_compares_each_high_discount_with_0_95():
     text = "\n".join(report._engine_md({"first_call_s": 0.1, "cases": cases}))
     assert "| p | 0.999 | 20.0 | 2.00x | yes |" in text
     assert "| p | 0.9999 | 40.0 | 4.00x | no |" in text  # negative control: over 3x is "no"
+
+
+def test_suites_not_run_keep_their_earlier_rows_and_say_so(tmp_path):
+    import json
+
+    from bayesirl import bench
+
+    (tmp_path / "benchmark.json").write_text(json.dumps(
+        {"quick": False, "engine": {"old": 1}, "sampler": {"rows": 2}, "design": {"rows": 3}}))
+    results = {"quick": False, "engine": {"new": 1}}
+    bench._keep_earlier(results, tmp_path, only=("engine",))
+    assert results["sampler"] == {"rows": 2} and results["engine"] == {"new": 1}
+    assert results["kept_from_earlier"] == ["sampler", "design"]
+    quick = {"quick": True, "engine": {}}  # negative control: a smoke run keeps nothing
+    bench._keep_earlier(quick, tmp_path, only=("engine",))
+    assert "sampler" not in quick
