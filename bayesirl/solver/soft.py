@@ -95,11 +95,13 @@ def rounding_factor(max_row_nnz: int, n_actions: int) -> float:
     Algorithms*, 2nd ed., sec. 4.2); adding ``r`` and scaling by ``g``, ``2 eps M``; the
     log-sum-exp over ``A`` actions adds ``(A + 2) eps`` from the sum of exponentials (our
     exponential is within 1.5 ulp) plus ``eps M`` for adding the maximum back; the final
-    subtraction ``eps M``. That is ``(k + A + 7) eps M`` per entry, and the computed span can
-    exceed the true one by twice that. A worst-case bound, so a converged Newton iterate
-    always reaches it.
+    subtraction ``eps M``: ``(k + A + 7) eps M`` per entry. An iterate that is the exact
+    solution up to its own rounding (``eps M`` per entry) has a true residual of at most
+    ``(1 + g) eps M <= 2 eps M`` per entry. The computed span is then at most twice the sum,
+    ``2 (k + A + 9) eps M``. A worst-case bound (typical rounding is far smaller), so a
+    converged Newton iterate reaches it.
     """
-    return 2.0 * (max_row_nnz + n_actions + 7)
+    return 2.0 * (max_row_nnz + n_actions + 9)
 
 
 def _converged(span: float, scale: float, tol: float, factor: float, size: float) -> bool:
