@@ -165,7 +165,16 @@ def _other_parsers(sub) -> None:
                "another interval level", "bayesirl report park-run --level 0.5", _report)
     rep.add_argument("run", help="run folder made by bayesirl fit")
     rep.add_argument("--level", type=_level, default=0.9,
-                     help="credible level of the intervals (default 0.9)")
+                     help="credible level of the intervals, verdicts and policy-risk bound "
+                          "(default 0.9)")
+    rep.add_argument("--tolerance", type=float, metavar="T",
+                     help="precision that matters, in reward units: a weight is determined "
+                          "when its interval excludes zero and its half-width is <= T "
+                          "(default: within a factor of 2 of its own size)")
+    rep.add_argument("--states", metavar="S,S,...",
+                     help="states whose action probabilities to report, e.g. 0,8,24")
+    rep.add_argument("--suggestions", action="store_true",
+                     help="add the run's suggestions.json (from bayesirl suggest) to the page")
     sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
                "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
                _suggest)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import inspect
+import json
 import sys
 from pathlib import Path
 
@@ -26,20 +27,59 @@ def _load_posterior(run: RunFolder, summary: dict):
                          f"({type(err).__name__}: {err})") from None
 
 
-def report_command(args) -> int:
-    """Re-render a run folder's report (and summary) at another interval level."""
+def parse_states(text: str | None, n_states: int) -> list[int]:
+    """``--states``: a comma-separated list of state indices (empty without the option)."""
+    if text is None:
+        return []
+    out = []
+    for part in text.split(","):
+        part = part.strip()
+        if not part.isdigit() or int(part) >= n_states:
+            raise InputError(f"--states: {part!r} is not a state 0..{n_states - 1}; expected "
+                             "a list like 0,8,24")
+        out.append(int(part))
+    return out
+
+
+def render_report(run: RunFolder, summary: dict, posterior, settings: dict,
+                  suggestions=None):
+    """Write the run's report.html and the report in summary.json with ``settings``
+    (``level``, ``tolerance``, ``states``), returning the report."""
     from bayesirl.report import ambiguity
+
+    report = ambiguity(posterior, level=settings["level"], tolerance=settings.get("tolerance"),
+                       states=settings.get("states") or (), suggestions=suggestions)
+    report.to_html(run.report)
+    summary.update(level=settings["level"], report_settings=settings, report=report.as_dict())
+    write_json(run.summary, summary)
+    return report
+
+
+def _stored_suggestions(run: RunFolder):
+    if not run.suggestions.is_file():
+        raise InputError(f"{run.suggestions}: missing; run bayesirl suggest {run.root} first")
+    try:
+        return json.loads(run.suggestions.read_text(encoding="utf-8"))["suggestions"]
+    except (OSError, ValueError, KeyError, TypeError) as err:
+        raise InputError(f"{run.suggestions}: not a suggestions file ({err})") from None
+
+
+def report_command(args) -> int:
+    """Re-render a run folder's report (and summary) at another level, tolerance or states."""
+    from bayesirl.report.verdicts import check_tolerance
 
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
+    tolerance = check_tolerance(getattr(args, "tolerance", None))
     posterior = _load_posterior(run, summary)
-    report = ambiguity(posterior, level=args.level)
-    report.to_html(run.report)
-    summary.update(level=args.level, report=report.as_dict())
-    write_json(run.summary, summary)
+    n_states = posterior.model.likelihood.mdp.n_states
+    settings = {"level": args.level, "tolerance": tolerance,
+                "states": parse_states(getattr(args, "states", None), n_states)}
+    extra = _stored_suggestions(run) if getattr(args, "suggestions", False) else None
+    report = render_report(run, summary, posterior, settings, extra)
     if not args.quiet:
         print(report.table())
     say(args, f"wrote {run.report} and {run.summary} at the {args.level:.0%} level")
