@@ -185,8 +185,15 @@ def _other_parsers(sub) -> None:
                           "(default start-states)")
     sug.add_argument("--budget", type=_positive, default=1,
                      help="number of demonstrations to choose together (default 1)")
-    sug.add_argument("--target", help="feature whose weight should be narrowed (default: all)")
+    sug.add_argument("--target", help="also report the expected sd after each pick of a "
+                     "feature's weight (water), a ratio (water/mud) or policy-risk")
     sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
+    sug.add_argument("--outer", type=_positive, default=512, metavar="N",
+                     help="outer Monte-Carlo samples per candidate (default 512); more give a "
+                          "more settled ranking, in proportional time")
+    sug.add_argument("--report", action="store_true",
+                     help="also add the suggestions (table and map markers) to the run's "
+                          "report.html")
     sug.add_argument("--scheduler", metavar="ADDRESS",
                      help="split the policy solves and the candidate scoring across a Dask "
                           "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "

@@ -100,13 +100,6 @@ def parse_candidates(text: str, n_states: int):
     return out
 
 
-def _field(record, name):
-    value = record[name] if isinstance(record, dict) else getattr(record, name)
-    if name == "candidate" and not isinstance(value, int | str | list | tuple | dict):
-        value = value.tolist() if hasattr(value, "tolist") else str(value)  # JSON-ready
-    return value
-
-
 def suggest_command(args) -> int:
     """Rank extra demonstrations for a run (the designer in ``bayesirl.design``)."""
     try:
@@ -114,6 +107,8 @@ def suggest_command(args) -> int:
     except ImportError:
         raise RuntimeError("this installation has no demonstration designer "
                            "(bayesirl.design)") from None
+    from bayesirl.report.suggestions import as_records, render_text
+
     scheduler = getattr(args, "scheduler", None)
     if scheduler is not None:  # a malformed address is refused before the run is read
         from bayesirl.posterior.cluster import check_arguments
@@ -122,26 +117,29 @@ def suggest_command(args) -> int:
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = _load_posterior(run, summary)
-    names = posterior.feature_names
-    if args.target is not None and args.target not in names:
-        raise InputError(f"--target: unknown feature {args.target!r}; features are "
-                         f"{', '.join(names)}")
+    if not posterior.diagnostics.ok:
+        print("warning: the run's sampler diagnostics failed "
+              f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
+              "may be wrong: run the fit longer first", file=sys.stderr)
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
-              "budget": args.budget, "target": args.target, "seed": args.seed}
+              "budget": args.budget, "target": args.target, "seed": args.seed,
+              "n_outer": args.outer}
     if "progress" in inspect.signature(design.suggest).parameters:
         kwargs["progress"] = not args.quiet
     where = {} if scheduler is None else {"cluster": scheduler}  # not a setting of the result
-    records = design.suggest(posterior, **kwargs, **where)
-    rows = [{k: _field(r, k) for k in ("candidate", "gain", "stderr", "target_sd")}
-            for r in records]
+    records = as_records(design.suggest(posterior, **kwargs, **where))
     write_json(run.suggestions, {"settings": {k: v for k, v in kwargs.items()
-                                              if k != "progress"}, "suggestions": rows})
-    print(f"{'rank':>4}  {'candidate':<24}{'gain':>10}{'stderr':>10}{'target sd':>11}")
-    for k, r in enumerate(rows, start=1):
-        print(f"{k:>4}  {str(r['candidate']):<24}{float(r['gain']):10.4g}"
-              f"{float(r['stderr']):10.2g}{float(r['target_sd']):11.4g}")
+                                              if k != "progress"},
+                                 "diagnostics_ok": bool(posterior.diagnostics.ok),
+                                 "suggestions": records})
+    if not args.quiet:
+        print(render_text(records, posterior.model.likelihood.mdp.grid_shape))
     say(args, f"wrote {run.suggestions}")
+    if getattr(args, "report", False):
+        settings = summary.get("report_settings") or {"level": summary.get("level", 0.9)}
+        render_report(run, summary, posterior, settings, records)
+        say(args, f"added the suggestions to {run.report}")
     return 0
 
 
