@@ -100,20 +100,21 @@ def describe_candidate(rec: dict, grid_shape=None, earlier=()) -> str:
 
 def ranking_sentence(records: list[dict]) -> str:
     """Whether each greedy pick is settled, in words."""
-    parts = []
+    settled, unsettled = [], []
     for r in records:
         if not r.get("step") or r.get("p_best") is None:
             continue
         lo, hi = r.get("rank_interval") or (1, 1)
-        rank = f"rank {lo}" if lo == hi else f"ranks {lo}\u2013{hi}"
-        if r.get("settled"):
-            parts.append(f"pick {r['step']} is settled (best with probability "
-                         f"{r['p_best']:.2f})")
-        else:
-            parts.append(f"pick {r['step']} is not settled: it is the best with probability "
-                         f"only {r['p_best']:.2f} ({rank} at 90%); candidates with close gains "
-                         "are as good a choice, and more outer samples (--outer) sharpen it")
-    return ("Ranking: " + "; ".join(parts) + ".") if parts else ""
+        ranks = f"rank {lo}" if lo == hi else f"ranks {lo}\u2013{hi}"
+        item = f"pick {r['step']} is the best with probability {r['p_best']:.2f} ({ranks})"
+        (settled if r.get("settled") else unsettled).append(item)
+    if not settled and not unsettled:
+        return ""
+    if not unsettled:
+        return "Ranking settled: " + ", ".join(settled) + "."
+    return ("Ranking not settled: " + ", ".join(unsettled + settled) + " (rank intervals at "
+            "90%). Candidates with gains close to a pick's are as good a choice; more outer "
+            "samples (--outer) sharpen the ranking.")
 
 
 def _cell_of(rec, rows: int, cols: int):
