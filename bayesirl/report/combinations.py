@@ -68,14 +68,12 @@ def directions(draws, names, prior_var, level: float = 0.9, tolerance=None) -> l
     ratios, vecs = _eig(draws, prior_var)
     pv = dict(zip(names, prior_var, strict=True))
     out, seen = [], set()
-    for _, v in sorted(zip(ratios, vecs.T, strict=True), key=lambda t: -t[0]):
-        combo = verdicts.round_combination(v, names)
+    for raw, v in sorted(zip(ratios, vecs.T, strict=True), key=lambda t: -t[0]):
+        combo, values, r = _short(draws, names, pv, v, float(raw))
         key = tuple(sorted(combo.items()))
         if not combo or key in seen:
             continue
         seen.add(key)
-        values = verdicts.combination_values(draws, names, combo)
-        r = _ratio(values, combo, pv)
         summ = verdicts.summarise(values, level, tolerance)
         text = describe(combo)
         if r >= UNDETERMINED_RATIO:
@@ -87,6 +85,26 @@ def directions(draws, names, prior_var, level: float = 0.9, tolerance=None) -> l
                     f"{verdicts.fmt(hi)}] ({summ['verdict']})")
         out.append({"combination": combo, "variance_ratio": r, **summ, "text": text})
     return out
+
+
+def _short(draws, names, pv: dict, v: np.ndarray, raw: float):
+    """The shortest rounded form of direction ``v`` that keeps its meaning.
+
+    Three terms read best, but dropping a term can break a combination the data determine
+    (``mud + wet`` without ``wet`` is a weight the data do not see alone): a short form is
+    kept only if its posterior sd is at most twice that of the exact direction (scaled the
+    same way); otherwise more terms are shown, up to every term above the rounding cut-off.
+    """
+    exact = draws @ (v / v[np.argmax(np.abs(v) >= 0.95 * np.abs(v).max())])
+    limit = 4.0 * float(np.var(exact, ddof=1))
+    for terms in range(min(3, len(names)), len(names) + 1):
+        combo = verdicts.round_combination(v, names, max_terms=terms)
+        if not combo:
+            return combo, None, float("nan")
+        values = verdicts.combination_values(draws, names, combo)
+        if raw >= UNDETERMINED_RATIO or np.var(values, ddof=1) <= limit:
+            break
+    return combo, values, _ratio(values, combo, pv)
 
 
 def _groups(directions_: list[dict], structural: list[dict], names) -> list[list[str]]:
