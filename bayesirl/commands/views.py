@@ -163,4 +163,7 @@ def check_command(args) -> int:
               "demonstrations like these)")
     for f in found:
         print(f"[{f.cause}] {f.message}")
+    if any(f.cause in ("constant", "collinear", "shaping") for f in found):
+        print("bayesirl fit will sample these with a dense mass matrix: the posterior is a "
+              "ridge along each combination above")
     return 0
