@@ -101,7 +101,8 @@ def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> 
             write_results(run, err.posterior, record, complete=False, quiet=True)
             return EXIT_INTERRUPTED
     _remove(run.checkpoint)  # a finished run needs no sampler state
-    write_results(run, posterior, record, complete=True, level=args.level, quiet=args.quiet)
+    write_results(run, posterior, record, complete=True, level=args.level, quiet=args.quiet,
+                  action_names=problem.action_names)
     return 0
 
 

@@ -48,11 +48,24 @@ def render_report(run: RunFolder, summary: dict, posterior, settings: dict,
     from bayesirl.report import ambiguity
 
     report = ambiguity(posterior, level=settings["level"], tolerance=settings.get("tolerance"),
-                       states=settings.get("states") or (), suggestions=suggestions)
+                       states=settings.get("states") or (), suggestions=suggestions,
+                       action_names=_action_names(summary, posterior))
     report.to_html(run.report)
     summary.update(level=settings["level"], report_settings=settings, report=report.as_dict())
     write_json(run.summary, summary)
     return report
+
+
+def _action_names(summary: dict, posterior):
+    """The problem file's action names (a map's moves), if the file still reads as the same
+    problem; None otherwise (the table then numbers the actions)."""
+    try:
+        problem = read_problem(summary["problem"])
+    except (InputError, OSError, KeyError, TypeError):
+        return None
+    names = problem.action_names
+    n = posterior.model.likelihood.mdp.n_actions
+    return list(names) if names and len(names) == n else None
 
 
 def _stored_suggestions(run: RunFolder):

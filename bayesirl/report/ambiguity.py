@@ -95,7 +95,7 @@ def _assumptions(posterior) -> dict:
 
 def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
               alpha: float | None = None, suggestions=None,
-              tolerance: float | None = None) -> AmbiguityReport:
+              tolerance: float | None = None, action_names=None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
@@ -120,10 +120,14 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
         interval excludes zero and its half-width is at most ``tolerance``, and *negligible*
         when its interval lies within ``[-tolerance, tolerance]``. Without it the scale is
         the weight's own magnitude (see :mod:`bayesirl.report.verdicts`).
+    action_names : sequence of str, optional
+        Names of the actions (a problem file's ``actions``, a map's moves), for the action
+        probability table.
     """
     tolerance = verdicts.check_tolerance(tolerance)
     alpha = level if alpha is None else alpha
     lik = posterior.model.likelihood
+    names = _action_names(action_names, lik.mdp.n_actions)
     table = weights_table(posterior, level, prior, truth, tolerance)
     found = structural.findings(lik.mdp, lik.demos)
     mean_w = np.array([r["mean"] for r in table])
@@ -135,7 +139,8 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
     report = AmbiguityReport(
         level=level, weights=table, directions=dirs, structural=found_dicts,
         derived={"ratios": derived.ratios(posterior, table, level),
-                 "action_probabilities": derived.action_probabilities(posterior, states, level)},
+                 "action_probabilities": derived.action_probabilities(posterior, states, level),
+                 "action_names": names},
         policy_risk=derived.policy_risk(posterior, alpha),
         diagnostics=_diagnostics(posterior), assumptions=_assumptions(posterior),
         groups=entangled, tolerance=tolerance,
@@ -143,6 +148,17 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
     )
     report.verdict = headline(report)
     return report
+
+
+def _action_names(names, n_actions: int) -> list[str] | None:
+    if names is None:
+        return None
+    names = [str(n) for n in names]
+    if len(names) != n_actions:
+        from bayesirl.errors import InputError
+
+        raise InputError(f"action_names: {len(names)} names for {n_actions} actions")
+    return names
 
 
 def _interval_text(row: dict) -> str:

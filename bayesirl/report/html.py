@@ -188,16 +188,24 @@ def _structural(report) -> str:
     return section("structural", intro + table(["cause", "features", "finding"], rows, "lll"))
 
 
-def _action_table(probs: list[dict], level: float) -> str:
+def _state_label(s: int, grid) -> str:
+    if grid is not None and s < grid[0] * grid[1]:
+        return "state {} = cell (row {}, col {})".format(s, *divmod(s, grid[1]))
+    return f"state {s}"
+
+
+def _action_table(probs: list[dict], level: float, names=None, grid=None) -> str:
     actions = sorted({p["action"] for p in probs})
     by_state: dict[int, dict[int, dict]] = {}
     for p in probs:
         by_state.setdefault(p["state"], {})[p["action"]] = p
-    rows = [[f"state {s}"] + [f"{num(acts[a]['mean'], '.3f')} {interval(acts[a]['interval'])}"
-                              if a in acts else "\u2013" for a in actions]
+    rows = [[_state_label(s, grid)]
+            + [f"{num(acts[a]['mean'], '.3f')} {interval(acts[a]['interval'])}"
+               if a in acts else "\u2013" for a in actions]
             for s, acts in by_state.items()]
+    head = [names[a] if names else f"action {a}" for a in actions]
     return (f"<h3>Action probabilities (mean and {level:.0%} interval)</h3>"
-            + table(["state"] + [f"action {a}" for a in actions], rows, "l"))
+            + table(["state"] + head, rows, "l"))
 
 
 def _derived(report) -> str:
@@ -216,7 +224,10 @@ def _derived(report) -> str:
                f"{lvl} level are used, and no weight the data determine only in combination "
                "(its share of a combination is the prior's). Ratios are heavy-tailed, so no "
                "mean is shown.</p>")
-    out.append(_action_table(probs, report.level) if probs else
+    grid = (None if report.posterior is None
+            else report.posterior.model.likelihood.mdp.grid_shape)
+    names = report.derived.get("action_names")
+    out.append(_action_table(probs, report.level, names, grid) if probs else
                '<p class="note">No states were asked for: add <code>--states</code> with a '
                "list such as 0,5,12 to <code>bayesirl report</code> (in Python, "
                "<code>ambiguity(posterior, states=[0, 5, 12])</code>) to see action "

@@ -26,7 +26,9 @@ def test_report_options_reach_the_page_and_summary(tiny, capsys):
     assert {p["state"] for p in report["derived"]["action_probabilities"]} == {0, 2}
     assert summary["report_settings"] == {"level": 0.5, "tolerance": 0.3, "states": [0, 2]}
     html = (tiny[0].parent / "run" / "report.html").read_text()
-    assert "the stated tolerance is 0.3 reward units" in html and "state 2" in html
+    assert "the stated tolerance is 0.3 reward units" in html
+    # States as cells of the map, actions by the map's move names (read from the problem).
+    assert "state 2 = cell (row 0, col 2)" in html and "<th>up</th>" in html
 
 
 @pytest.mark.parametrize(("argv", "message"), [
