@@ -36,7 +36,7 @@ def main(out: Path) -> None:
     walks = bayesirl.suggest(posterior, "start-states", budget=3, target="water/slope", seed=0)
     # truth is known only because the data are simulated: it adds z-scores to the table.
     report = ambiguity(posterior, level=0.9, truth=WET_PARK_WEIGHTS, states=(0, 8, 24),
-                       suggestions=walks)
+                       suggestions=walks, action_names=problem.action_names)
     html = report.to_html(out / "park-report.html")
     js = report.to_json(out / "park-report.json")
     print(report.table())
