@@ -130,5 +130,5 @@ def summarise(values: np.ndarray, level: float, tolerance: float | None = None) 
 
 
 def fmt(x: float) -> str:
-    """A number for a sentence: three significant digits, a real minus sign avoided."""
+    """A number for a sentence: three significant digits."""
     return f"{x:.3g}"
