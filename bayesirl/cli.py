@@ -165,7 +165,16 @@ def _other_parsers(sub) -> None:
                "another interval level", "bayesirl report park-run --level 0.5", _report)
     rep.add_argument("run", help="run folder made by bayesirl fit")
     rep.add_argument("--level", type=_level, default=0.9,
-                     help="credible level of the intervals (default 0.9)")
+                     help="credible level of the intervals, verdicts and policy-risk bound "
+                          "(default 0.9)")
+    rep.add_argument("--tolerance", type=float, metavar="T",
+                     help="precision that matters, in reward units: a weight is determined "
+                          "when its interval excludes zero and its half-width is <= T "
+                          "(default: within a factor of 2 of its own size)")
+    rep.add_argument("--states", metavar="S,S,...",
+                     help="states whose action probabilities to report, e.g. 0,8,24")
+    rep.add_argument("--suggestions", action="store_true",
+                     help="add the run's suggestions.json (from bayesirl suggest) to the page")
     sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
                "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
                _suggest)
@@ -176,8 +185,15 @@ def _other_parsers(sub) -> None:
                           "(default start-states)")
     sug.add_argument("--budget", type=_positive, default=1,
                      help="number of demonstrations to choose together (default 1)")
-    sug.add_argument("--target", help="feature whose weight should be narrowed (default: all)")
+    sug.add_argument("--target", help="also report the expected sd after each pick of a "
+                     "feature's weight (water), a ratio (water/mud) or policy-risk")
     sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
+    sug.add_argument("--outer", type=_positive, default=512, metavar="N",
+                     help="outer Monte-Carlo samples per candidate (default 512); more give a "
+                          "more settled ranking, in proportional time")
+    sug.add_argument("--report", action="store_true",
+                     help="also add the suggestions (table and map markers) to the run's "
+                          "report.html")
     sug.add_argument("--scheduler", metavar="ADDRESS",
                      help="split the policy solves and the candidate scoring across a Dask "
                           "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "

@@ -15,6 +15,7 @@ from pathlib import Path
 
 import bayesirl
 from bayesirl.report import ambiguity
+from bayesirl.report.suggestions import as_records, render_text
 from bayesirl.scenarios import PARK_WEIGHTS, park_mdp
 
 
@@ -24,12 +25,11 @@ def main(folder: Path) -> None:
     lik = bayesirl.BoltzmannLikelihood(mdp, demos)
     posterior = bayesirl.sample(lik, chains=2, draws=400, warmup=400, seed=0, progress=False)
     walks = bayesirl.suggest(posterior, "start-states", budget=3, target="mud", seed=0)
-    print(f"{'rank':>4} {'start':>5} {'gain (nats)':>12} {'se':>6} {'sd(mud) after':>14}")
-    for k, s in enumerate(walks[:8], start=1):
-        print(f"{k:4d} {s.state:5d} {s.gain:12.3f} {s.stderr:6.3f} {s.target_sd:14.3f}")
-    questions = bayesirl.suggest(posterior, "query-states", seed=0)
-    print("best single questions (state: gain):",
-          ", ".join(f"{q.state}: {q.gain:.3f}" for q in questions[:5]))
+    # The same table as `bayesirl suggest`: cells as (row, col), the batch with its gain so
+    # far, no gain printed that is within noise of zero, and how settled the ranking is.
+    print(render_text(as_records(walks), mdp.grid_shape, top=8))
+    questions = as_records(bayesirl.suggest(posterior, "query-states", seed=0))
+    print(render_text(questions, mdp.grid_shape, top=5))
     report = ambiguity(posterior, suggestions=walks)
     print("wrote", report.to_html(folder / "design_report.html"),
           report.to_json(folder / "design_report.json"))

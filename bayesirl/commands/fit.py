@@ -10,6 +10,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import bayesirl
+from bayesirl.commands import mass
 from bayesirl.commands.runs import inputs_record, say, write_results
 from bayesirl.errors import InputError
 from bayesirl.io import RunFolder, read_demonstrations, read_problem, staged_folder
@@ -74,6 +75,9 @@ def fit_command(args) -> int:
     for key in OVERRIDES:
         if getattr(args, key, None) is not None:
             settings[key] = getattr(args, key)
+    settings, why = mass.choose(problem, lik, settings)  # a ridge: dense mass matrix
+    if why:
+        say(args, f"dense mass matrix: on, because {why}")
     record = {**inputs_record(args.problem, args.demonstrations), "requested": settings,
               "command": shlex.join(["bayesirl", *getattr(args, "argv", sys.argv[1:])])}
     say(args, f"{problem.mdp}; {lik.demos}; sampling {settings['chains']} chains x "
@@ -98,7 +102,8 @@ def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> 
             write_results(run, err.posterior, record, complete=False, quiet=True)
             return EXIT_INTERRUPTED
     _remove(run.checkpoint)  # a finished run needs no sampler state
-    write_results(run, posterior, record, complete=True, level=args.level, quiet=args.quiet)
+    write_results(run, posterior, record, complete=True, level=args.level, quiet=args.quiet,
+                  action_names=problem.action_names)
     return 0
 
 

@@ -23,7 +23,8 @@ def inputs_record(problem_path, demos_path) -> dict:
 
 
 def write_results(run: RunFolder, posterior, record: dict, complete: bool,
-                  level: float = DEFAULT_LEVEL, quiet: bool = False) -> dict:
+                  level: float = DEFAULT_LEVEL, quiet: bool = False,
+                  action_names=None) -> dict:
     """``posterior.nc``, ``summary.json`` and, for a finished run, ``report.html``.
 
     Parameters
@@ -39,6 +40,8 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
         Credible level of the report's intervals.
     quiet : bool
         Do not print the report table.
+    action_names : sequence of str, optional
+        The problem's action names, for the report's action probability table.
 
     Returns
     -------
@@ -54,7 +57,7 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     if complete:
         from bayesirl.report import ambiguity
 
-        report = ambiguity(posterior, level=level)
+        report = ambiguity(posterior, level=level, action_names=action_names)
         report.to_html(run.report)
         summary.update(level=level, report=report.as_dict())
         if not quiet:

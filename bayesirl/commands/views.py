@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import inspect
+import json
 import sys
 from pathlib import Path
 
@@ -26,20 +27,72 @@ def _load_posterior(run: RunFolder, summary: dict):
                          f"({type(err).__name__}: {err})") from None
 
 
-def report_command(args) -> int:
-    """Re-render a run folder's report (and summary) at another interval level."""
+def parse_states(text: str | None, n_states: int) -> list[int]:
+    """``--states``: a comma-separated list of state indices (empty without the option)."""
+    if text is None:
+        return []
+    out = []
+    for part in text.split(","):
+        part = part.strip()
+        if not part.isdigit() or int(part) >= n_states:
+            raise InputError(f"--states: {part!r} is not a state 0..{n_states - 1}; expected "
+                             "a list like 0,8,24")
+        out.append(int(part))
+    return out
+
+
+def render_report(run: RunFolder, summary: dict, posterior, settings: dict,
+                  suggestions=None):
+    """Write the run's report.html and the report in summary.json with ``settings``
+    (``level``, ``tolerance``, ``states``), returning the report."""
     from bayesirl.report import ambiguity
+
+    report = ambiguity(posterior, level=settings["level"], tolerance=settings.get("tolerance"),
+                       states=settings.get("states") or (), suggestions=suggestions,
+                       action_names=_action_names(summary, posterior))
+    report.to_html(run.report)
+    summary.update(level=settings["level"], report_settings=settings, report=report.as_dict())
+    write_json(run.summary, summary)
+    return report
+
+
+def _action_names(summary: dict, posterior):
+    """The problem file's action names (a map's moves), if the file still reads as the same
+    problem; None otherwise (the table then numbers the actions)."""
+    try:
+        problem = read_problem(summary["problem"])
+    except (InputError, OSError, KeyError, TypeError):
+        return None
+    names = problem.action_names
+    n = posterior.model.likelihood.mdp.n_actions
+    return list(names) if names and len(names) == n else None
+
+
+def _stored_suggestions(run: RunFolder):
+    if not run.suggestions.is_file():
+        raise InputError(f"{run.suggestions}: missing; run bayesirl suggest {run.root} first")
+    try:
+        return json.loads(run.suggestions.read_text(encoding="utf-8"))["suggestions"]
+    except (OSError, ValueError, KeyError, TypeError) as err:
+        raise InputError(f"{run.suggestions}: not a suggestions file ({err})") from None
+
+
+def report_command(args) -> int:
+    """Re-render a run folder's report (and summary) at another level, tolerance or states."""
+    from bayesirl.report.verdicts import check_tolerance
 
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
+    tolerance = check_tolerance(getattr(args, "tolerance", None))
     posterior = _load_posterior(run, summary)
-    report = ambiguity(posterior, level=args.level)
-    report.to_html(run.report)
-    summary.update(level=args.level, report=report.as_dict())
-    write_json(run.summary, summary)
+    n_states = posterior.model.likelihood.mdp.n_states
+    settings = {"level": args.level, "tolerance": tolerance,
+                "states": parse_states(getattr(args, "states", None), n_states)}
+    extra = _stored_suggestions(run) if getattr(args, "suggestions", False) else None
+    report = render_report(run, summary, posterior, settings, extra)
     if not args.quiet:
         print(report.table())
     say(args, f"wrote {run.report} and {run.summary} at the {args.level:.0%} level")
@@ -60,13 +113,6 @@ def parse_candidates(text: str, n_states: int):
     return out
 
 
-def _field(record, name):
-    value = record[name] if isinstance(record, dict) else getattr(record, name)
-    if name == "candidate" and not isinstance(value, int | str | list | tuple | dict):
-        value = value.tolist() if hasattr(value, "tolist") else str(value)  # JSON-ready
-    return value
-
-
 def suggest_command(args) -> int:
     """Rank extra demonstrations for a run (the designer in ``bayesirl.design``)."""
     try:
@@ -74,6 +120,8 @@ def suggest_command(args) -> int:
     except ImportError:
         raise RuntimeError("this installation has no demonstration designer "
                            "(bayesirl.design)") from None
+    from bayesirl.report.suggestions import as_records, render_text
+
     scheduler = getattr(args, "scheduler", None)
     if scheduler is not None:  # a malformed address is refused before the run is read
         from bayesirl.posterior.cluster import check_arguments
@@ -82,26 +130,29 @@ def suggest_command(args) -> int:
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = _load_posterior(run, summary)
-    names = posterior.feature_names
-    if args.target is not None and args.target not in names:
-        raise InputError(f"--target: unknown feature {args.target!r}; features are "
-                         f"{', '.join(names)}")
+    if not posterior.diagnostics.ok:
+        print("warning: the run's sampler diagnostics failed "
+              f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
+              "may be wrong: run the fit longer first", file=sys.stderr)
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
-              "budget": args.budget, "target": args.target, "seed": args.seed}
+              "budget": args.budget, "target": args.target, "seed": args.seed,
+              "n_outer": args.outer}
     if "progress" in inspect.signature(design.suggest).parameters:
         kwargs["progress"] = not args.quiet
     where = {} if scheduler is None else {"cluster": scheduler}  # not a setting of the result
-    records = design.suggest(posterior, **kwargs, **where)
-    rows = [{k: _field(r, k) for k in ("candidate", "gain", "stderr", "target_sd")}
-            for r in records]
+    records = as_records(design.suggest(posterior, **kwargs, **where))
     write_json(run.suggestions, {"settings": {k: v for k, v in kwargs.items()
-                                              if k != "progress"}, "suggestions": rows})
-    print(f"{'rank':>4}  {'candidate':<24}{'gain':>10}{'stderr':>10}{'target sd':>11}")
-    for k, r in enumerate(rows, start=1):
-        print(f"{k:>4}  {str(r['candidate']):<24}{float(r['gain']):10.4g}"
-              f"{float(r['stderr']):10.2g}{float(r['target_sd']):11.4g}")
+                                              if k != "progress"},
+                                 "diagnostics_ok": bool(posterior.diagnostics.ok),
+                                 "suggestions": records})
+    if not args.quiet:
+        print(render_text(records, posterior.model.likelihood.mdp.grid_shape))
     say(args, f"wrote {run.suggestions}")
+    if getattr(args, "report", False):
+        settings = summary.get("report_settings") or {"level": summary.get("level", 0.9)}
+        render_report(run, summary, posterior, settings, records)
+        say(args, f"added the suggestions to {run.report}")
     return 0
 
 
@@ -125,4 +176,7 @@ def check_command(args) -> int:
               "demonstrations like these)")
     for f in found:
         print(f"[{f.cause}] {f.message}")
+    if any(f.cause in ("constant", "collinear", "shaping") for f in found):
+        print("bayesirl fit will sample these with a dense mass matrix: the posterior is a "
+              "ridge along each combination above")
     return 0

@@ -4,7 +4,8 @@ Every random number comes from a child of ``numpy.random.SeedSequence(seed)`` na
 it is for, so the outcomes depend on the seed alone, never on the order of the work:
 ``spawn_key (0,)`` the outer samples, ``(1, s, r)`` the ``r``-th simulation of the
 demonstrations from start state ``s`` (``r`` counts the earlier picks of that start),
-``(2, step)`` the simulated answers of the query picked at greedy ``step``. A start
+``(2, step)`` the simulated answers of the query picked at greedy ``step``, ``(3, step)``
+the resamples that measure how settled the ranking at greedy ``step`` is. A start
 candidate's simulated demonstrations, and so its first-step gain, are therefore the same
 whichever other candidates are scored with it.
 """
@@ -15,7 +16,7 @@ import numpy as np
 
 from bayesirl.kernels import sample_episodes
 
-OUTER, START, QUERY = 0, 1, 2
+OUTER, START, QUERY, RANKING = 0, 1, 2, 3
 # Candidates simulated per call of the rollout kernel (bounds the uniforms' memory).
 SIM_GROUP = 256
 

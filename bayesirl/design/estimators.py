@@ -22,6 +22,10 @@ class Scores(NamedTuple):
     gain: np.ndarray
     stderr: np.ndarray
     target_sd: np.ndarray  # nan without a target
+    # (k, J) per-outer-sample terms whose mean is the gain (None when exact over outcomes):
+    # the same outer samples serve every candidate, so the ranking's own uncertainty is
+    # measured from these jointly (bayesirl.design.ranking).
+    per_outer: np.ndarray | None = None
 
 
 def _xlogx(p: np.ndarray) -> np.ndarray:
@@ -130,7 +134,8 @@ class QueryGiven:
         per_j = -_xlogx(pj).sum(axis=2) - self.ent  # (J, k)
         sd = _weighted_sd(mass[0], mass[1], mass[2]).reshape(n_j, k, -1)
         sd_after = (sd * pj).sum(axis=2).mean(axis=0)
-        return Scores(per_j.mean(axis=0), per_j.std(axis=0, ddof=1) / np.sqrt(n_j), sd_after)
+        return Scores(per_j.mean(axis=0), per_j.std(axis=0, ddof=1) / np.sqrt(n_j), sd_after,
+                      per_j.T.copy())
 
 
 def query_given(policies, states: np.ndarray, g: np.ndarray, prev: np.ndarray) -> Scores:
@@ -178,7 +183,7 @@ class StartGiven:
         per_j = acc[4] - lme - prev_gain(self.prev, self.outer)[None, :]  # (C, J)
         sd_after = _weighted_sd(acc[1], acc[2], acc[3]).mean(axis=1)
         stderr = per_j.std(axis=1, ddof=1) / np.sqrt(n_j)
-        return Scores(per_j.mean(axis=1), stderr, sd_after)
+        return Scores(per_j.mean(axis=1), stderr, sd_after, per_j)
 
 
 def start_given(policies, states, actions, g, prev, outer,

@@ -10,7 +10,8 @@ from typing import NamedTuple
 import numpy as np
 
 from bayesirl.design import estimators as est
-from bayesirl.design.batch import Batch, outer_samples
+from bayesirl.design import ranking
+from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
@@ -32,6 +33,12 @@ class Suggestion(NamedTuple):
     kind: str  # "start" (a whole demonstration) or "query" (one action)
     state: int
     step: int  # 1..budget for the greedy picks, 0 for the rest of the ranking
+    current_sd: float = float("nan")  # the target's posterior sd now (nan without a target)
+    cumulative_gain: float = float("nan")  # picks 1..step together (chain rule); nan if step 0
+    cumulative_stderr: float = float("nan")
+    p_best: float = float("nan")  # greedy picks: P(this pick is the best at its step)
+    rank_interval: tuple = ()  # greedy picks: 90% interval of its rank at its step
+    settled: bool = False  # greedy picks: p_best >= ranking.SETTLED
 
 
 def _parse_candidates(candidates, n_states: int) -> tuple[list[str], np.ndarray, bool]:
@@ -89,13 +96,22 @@ def _step_scores(backend, batch, kinds, states, first: bool) -> est.Scores:
     work = groups("start", batch.start_index, batch.states, batch.actions)
     work += groups("query", q_index, states[q_index])
     gain, stderr, sd = np.zeros(n), np.zeros(n), np.full(n, np.nan)
+    per_outer = np.full((n, batch.prev.shape[0]), np.nan)
     for grp, sc in zip(work, backend.score(work, batch.prev, first), strict=True):
-        gain[grp.index], stderr[grp.index], sd[grp.index] = sc
-    return est.Scores(gain, stderr, sd)
+        gain[grp.index], stderr[grp.index], sd[grp.index] = sc[:3]
+        if sc.per_outer is not None:
+            per_outer[grp.index] = sc.per_outer
+    return est.Scores(gain, stderr, sd, per_outer)
+
+
+# Outer samples by default: on the bundled park example the top walks' gains differ by ~0.005
+# nats with an outer-sample se of ~0.01 at 1024; no affordable number settles such a ranking,
+# so the output reports how settled it is (bayesirl.design.ranking) instead.
+N_OUTER = 512
 
 
 def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
-            length: int | None = None, n_outer: int = 64, max_draws: int | None = None,
+            length: int | None = None, n_outer: int = N_OUTER, max_draws: int | None = None,
             chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES,
             progress: bool = False, cluster=None) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
@@ -137,8 +153,10 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     Returns
     -------
     list of Suggestion
-        The ``budget`` greedy picks in order (``step`` 1..k), then every other candidate
-        ranked by its gain at the last step (``step`` 0). Query-state gains at the first
+        The ``budget`` greedy picks in order (``step`` 1..k, with the cumulative gain of the
+        batch so far, the probability that the pick is the best at its step and its rank
+        interval, see :mod:`bayesirl.design.ranking`), then every other candidate ranked by
+        its gain at the last step (``step`` 0). Query-state gains at the first
         step are exact over actions given the draws; ``stderr`` is then their error from
         the finite set of draws (treated as independent). Other gains are nested
         Monte-Carlo estimates and ``stderr`` is the outer-sample standard error.
@@ -205,6 +223,7 @@ def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
     sd_now = float(np.std(g, ddof=1)) if g is not None else np.nan
     start_pos = np.cumsum(is_start) - 1
     picks: list[Suggestion] = []
+    total, total_var = 0.0, 0.0
     for step in range(1, budget + 1):
         show(policies.solves)
         sc = _step_scores(backend, batch, kinds, states, first=step == 1)
@@ -212,7 +231,16 @@ def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
             sc.target_sd[:] = np.nan
         order = np.argsort(-sc.gain, kind="stable")
         best = int(order[0])
-        row = _record(sc, best, kinds, states, explicit, sd_now, step)
+        conf = ranking.confidence(sc.gain, sc.stderr, sc.per_outer, best,
+                                  child_rng(seed, RANKING, step))
+        # The batch's gain is the sum of its conditional gains (chain rule of mutual
+        # information); the variance adds as for independent estimates (an approximation:
+        # the steps share outer samples).
+        total += max(float(sc.gain[best]), 0.0)
+        total_var += float(sc.stderr[best]) ** 2
+        row = _record(sc, best, kinds, states, explicit, sd_now, step)._replace(
+            cumulative_gain=total, cumulative_stderr=float(np.sqrt(total_var)),
+            p_best=conf.p_best, rank_interval=conf.rank_interval, settled=conf.settled)
         picks.append(row)
         if step == budget:
             rest = [_record(sc, int(i), kinds, states, explicit, sd_now, 0) for i in order[1:]]
@@ -229,4 +257,4 @@ def _record(sc, i, kinds, states, explicit, sd_now, step) -> Suggestion:
     sd = float(sc.target_sd[i])
     return Suggestion(label, float(sc.gain[i]), float(sc.stderr[i]), sd,
                       sd_now - sd if np.isfinite(sd) else float("nan"), kinds[i],
-                      int(states[i]), step)
+                      int(states[i]), step, current_sd=sd_now)

@@ -9,9 +9,9 @@ import numpy as np
 
 from bayesirl.files import write_json, write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
-from bayesirl.report import derived, structural
+from bayesirl.report import derived, structural, verdicts
 from bayesirl.report.suggestions import as_records
-from bayesirl.report.weights import directions, weights_table
+from bayesirl.report.weights import directions, groups, mark_groups, weights_table
 
 CAUTION = (
     "These intervals are conditional on the features, the dynamics and the Boltzmann-rational "
@@ -34,13 +34,16 @@ class AmbiguityReport:
     diagnostics: dict
     assumptions: dict
     verdict: str = ""
+    groups: list = field(default_factory=list)  # weights determined only in combination
+    tolerance: float | None = None
     suggestions: list = field(default_factory=list)  # plain records from bayesirl.suggest
     posterior: object = field(default=None, repr=False)
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (the posterior itself is left out)."""
-        return {"level": self.level, "verdict": self.verdict, "weights": self.weights,
-                "directions": self.directions, "structural": self.structural,
+        return {"level": self.level, "tolerance": self.tolerance, "verdict": self.verdict,
+                "verdict_words": dict(verdicts.WORDS), "weights": self.weights,
+                "groups": self.groups, "directions": self.directions, "structural": self.structural,
                 "derived": self.derived, "policy_risk": self.policy_risk,
                 "diagnostics": self.diagnostics, "assumptions": self.assumptions,
                 "suggestions": self.suggestions, "caution": CAUTION}
@@ -91,63 +94,113 @@ def _assumptions(posterior) -> dict:
 
 
 def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
-              alpha: float = 0.95, suggestions=None) -> AmbiguityReport:
+              alpha: float | None = None, suggestions=None,
+              tolerance: float | None = None, action_names=None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
     ----------
     posterior : Posterior
     level : float
-        Credible level of the intervals.
+        Credible level of every interval, of the verdicts read from them and (unless
+        ``alpha`` is given) of the policy-risk bound.
     prior : prior object, optional
         The prior to measure contraction against (default: the one used for sampling).
     truth : array (F,), optional
         True weights, for simulations: adds posterior z-scores.
     states : sequence of int
         States at which to report action probabilities.
-    alpha : float
-        Quantile of the policy-risk bound.
+    alpha : float, optional
+        Quantile of the policy-risk bound (default: ``level``).
     suggestions : list, optional
         The output of :func:`bayesirl.suggest`, stored as plain records (in the JSON and as a
         section of the HTML page, drawn on the map for grid problems).
+    tolerance : float, optional
+        The precision that matters, in reward units: a weight is then *determined* when its
+        interval excludes zero and its half-width is at most ``tolerance``, and *negligible*
+        when its interval lies within ``[-tolerance, tolerance]``. Without it the scale is
+        the weight's own magnitude (see :mod:`bayesirl.report.verdicts`).
+    action_names : sequence of str, optional
+        Names of the actions (a problem file's ``actions``, a map's moves), for the action
+        probability table.
     """
+    tolerance = verdicts.check_tolerance(tolerance)
+    alpha = level if alpha is None else alpha
     lik = posterior.model.likelihood
-    table = weights_table(posterior, level, prior, truth)
+    names = _action_names(action_names, lik.mdp.n_actions)
+    table = weights_table(posterior, level, prior, truth, tolerance)
     found = structural.findings(lik.mdp, lik.demos)
     mean_w = np.array([r["mean"] for r in table])
     found += structural.fisher_findings(lik, mean_w)
+    found_dicts = [f._asdict() for f in found]
+    dirs = directions(posterior, level, prior, tolerance)
+    entangled = groups(posterior, dirs, found_dicts, level, prior, tolerance)
+    mark_groups(table, entangled)
     report = AmbiguityReport(
-        level=level, weights=table, directions=directions(posterior, level, prior),
-        structural=[f._asdict() for f in found],
+        level=level, weights=table, directions=dirs, structural=found_dicts,
         derived={"ratios": derived.ratios(posterior, table, level),
-                 "action_probabilities": derived.action_probabilities(posterior, states, level)},
+                 "action_probabilities": derived.action_probabilities(posterior, states, level),
+                 "action_names": names},
         policy_risk=derived.policy_risk(posterior, alpha),
         diagnostics=_diagnostics(posterior), assumptions=_assumptions(posterior),
+        groups=entangled, tolerance=tolerance,
         suggestions=as_records(suggestions), posterior=posterior,
     )
     report.verdict = headline(report)
     return report
 
 
+def _action_names(names, n_actions: int) -> list[str] | None:
+    if names is None:
+        return None
+    names = [str(n) for n in names]
+    if len(names) != n_actions:
+        from bayesirl.errors import InputError
+
+        raise InputError(f"action_names: {len(names)} names for {n_actions} actions")
+    return names
+
+
+def _interval_text(row: dict) -> str:
+    lo, hi = row["interval"]
+    fmt = verdicts.fmt
+    return f"{row['feature']} {fmt(row['median'])} [{fmt(lo)}, {fmt(hi)}]"
+
+
+def _names(rows: list[dict]) -> str:
+    items = [_interval_text(r) for r in rows]
+    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
+
+
 def headline(report: AmbiguityReport) -> str:
-    """The one-paragraph verdict at the top of the page."""
+    """The one-paragraph verdict at the top of the page, in the report's verdict words."""
     parts = []
     if not report.diagnostics["trustworthy"]:
         parts.append("Do not trust these intervals yet: the sampler diagnostics failed "
                      f"({'; '.join(report.diagnostics['warnings'])}).")
-    words = {}
+    by_word: dict[str, list[dict]] = {}
     for row in report.weights:
-        words.setdefault(row["verdict"], []).append(row["feature"])
-    parts.append("Of the reward weights, " + "; ".join(
-        f"{', '.join(names)} {'is' if len(names) == 1 else 'are'} {word}"
-        for word, names in words.items()) + f" (at the {report.level:.0%} level).")
-    open_sign = [r["feature"] for r in report.weights if r["sign"] == "not settled"]
-    if open_sign:
-        parts.append(f"The sign of {', '.join(open_sign)} is not settled: "
-                     f"{'its' if len(open_sign) == 1 else 'each'} interval contains zero.")
-    undetermined = [d["text"] for d in report.directions if d["verdict"] == "undetermined"]
-    if undetermined:
-        parts.append("Undetermined directions: " + "; ".join(undetermined) + ".")
+        by_word.setdefault(row["verdict"], []).append(row)
+    tol = getattr(report, "tolerance", None)
+    scale = "a factor of 2" if tol is None else f"+/- {tol:g}"
+    said = []
+    if verdicts.DETERMINED in by_word:
+        said.append(f"determine {_names(by_word[verdicts.DETERMINED])} (to within {scale})")
+    if verdicts.SIGN_KNOWN in by_word:
+        said.append(f"settle only the sign of {_names(by_word[verdicts.SIGN_KNOWN])}")
+    if verdicts.NEGLIGIBLE in by_word:
+        said.append(f"show {_names(by_word[verdicts.NEGLIGIBLE])} to be negligible")
+    if verdicts.SIGN_OPEN in by_word:
+        rows = by_word[verdicts.SIGN_OPEN]
+        said.append(f"leave the sign of {_names(rows)} open (the "
+                    f"interval{'s contain' if len(rows) > 1 else ' contains'} zero)")
+    if said:
+        parts.append(f"At the {report.level:.0%} level the demonstrations "
+                     + "; they ".join(said) + ".")
+    for g in getattr(report, "groups", []):
+        parts.append(f"Only in combination: {g['text']}.")
+    if verdicts.DETERMINED not in by_word:
+        parts.append("No weight is determined by these data on its own.")
     causes = sorted({f["cause"] for f in report.structural})
     if causes:
         parts.append(f"Structural findings ({', '.join(causes)}) are listed below with their "

@@ -24,19 +24,32 @@ def _interval(x: np.ndarray, level: float) -> dict:
             "interval": [float(np.quantile(x, lo)), float(np.quantile(x, hi))]}
 
 
+# Weights whose verdict says the data do not determine them on their own: a ratio with one of
+# them in it would report the prior (or an arbitrary split of a combination) as a trade-off.
+NOT_ON_THEIR_OWN = ("only in combination", "not identified")
+
+
 def ratios(posterior, table: list[dict], level: float = 0.9) -> list[dict]:
-    """``w_i / w_j`` for every pair whose denominator has a settled sign at ``level``."""
+    """``w_i / w_j`` over weights identified on their own, denominators of settled sign.
+
+    Ratios of weights are heavy-tailed (a denominator near zero in a few draws moves the
+    mean anywhere), so each is summarised by its median and central interval only.
+    """
     draws = flat_draws(posterior)
     names = posterior.feature_names
+    usable = [not r["pinned"] and r["verdict"] not in NOT_ON_THEIR_OWN for r in table]
     out = []
     for j, row in enumerate(table):
         lo, hi = row["interval"]
-        if row["pinned"] or lo <= 0.0 <= hi:
+        if not usable[j] or lo <= 0.0 <= hi:
             continue  # the sign of w_j is not settled: the ratio would be unbounded
         for i, name in enumerate(names):
-            if i != j:
+            if i != j and (usable[i] or table[i]["pinned"]):
+                x = draws[:, i] / draws[:, j]
+                q = np.quantile(x, [0.5 * (1 - level), 0.5 * (1 + level)])
                 out.append({"numerator": name, "denominator": names[j],
-                            **_interval(draws[:, i] / draws[:, j], level)})
+                            "median": float(np.median(x)),
+                            "interval": [float(q[0]), float(q[1])]})
     return out
 
 

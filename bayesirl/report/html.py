@@ -12,7 +12,7 @@ from html import escape
 
 import numpy as np
 
-from bayesirl.report import maps, plots, suggestions
+from bayesirl.report import maps, plots, suggestions, verdicts
 from bayesirl.report.ambiguity import CAUTION
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
@@ -25,9 +25,10 @@ TITLES = {"verdict": "Verdict", "weights": "Reward weights", "correlations": "Tr
           "derived": "Derived quantities", "policy-risk": "Policy risk",
           "maps": "Reward maps", "diagnostics": "Sampler diagnostics",
           "assumptions": "Model assumptions", "caution": "Caution"}
-VERDICT_CLASS = {"pinned down": "v-strong", "narrowed": "v-mid",
-                 "loosely constrained": "v-weak", "left open": "v-weak",
-                 "pinned by assumption": "v-fixed"}
+VERDICT_CLASS = {verdicts.DETERMINED: "v-strong", verdicts.SIGN_KNOWN: "v-mid",
+                 verdicts.NEGLIGIBLE: "v-mid", verdicts.SIGN_OPEN: "v-weak",
+                 verdicts.COMBINATION_ONLY: "v-weak", verdicts.NOT_IDENTIFIED: "v-weak",
+                 verdicts.PINNED: "v-fixed"}
 
 def section(sid: str, body: str) -> str:
     """A page section with its stable id and heading."""
@@ -113,10 +114,10 @@ def _weights(report) -> str:
         if truth:
             row += [num(r.get("truth")), num(r.get("z_score"), ".2f")]
         rows.append(row)
-    note = ("<p class=\"note\">Contraction is 1 \u2212 posterior variance / prior variance: near 1 "
-            "the demonstrations did the work, near 0 the prior still speaks. Against a broad "
-            "prior a weight can contract a lot and still have an interval that straddles "
-            "zero: the sign column says whether the interval settles it. HDI is the "
+    note = (_word_list(report) + "<p class=\"note\">Contraction is 1 \u2212 posterior "
+            "variance / prior variance: near 1 the posterior moved far from the prior, near 0 "
+            "the prior still speaks. It is not the verdict: against a broad prior a weight can "
+            "contract a lot and still have an interval that straddles zero. HDI is the "
             "highest-density interval.</p>")
     fig = None if report.posterior is None else plots.marginals(report.posterior,
                                                                 report.weights, report.level)
@@ -125,6 +126,17 @@ def _weights(report) -> str:
         f"Posterior draws of each free weight (bars), their {lvl} interval (band) and the "
         "prior density (dashed). Pinned weights are not drawn.",
         _needs_draws(report) or "Every weight is pinned: there is nothing to draw."))
+
+
+def _word_list(report) -> str:
+    tol = getattr(report, "tolerance", None)
+    scale = ("no tolerance was stated, so precision is judged against each weight's own size"
+             if tol is None else f"the stated tolerance is {tol:g} reward units")
+    items = "".join(f"<li><strong>{escape(w)}</strong>: {escape(d)}</li>"
+                    for w, d in verdicts.WORDS.items())
+    return (f"<p class=\"note\">Verdict words, read from the {report.level:.0%} interval "
+            f"({escape(scale)}; set one with <code>--tolerance</code>):</p>"
+            f'<ul class="plain note">{items}</ul>')
 
 
 def _correlations(report) -> str:
@@ -151,10 +163,16 @@ def _directions(report) -> str:
     und = [d for d in report.directions if d["verdict"] == "undetermined"]
     det = [d for d in report.directions if d["verdict"] != "undetermined"]
     intro = ("<p class=\"note\">Each line is a combination of weights, found by comparing the "
-             "posterior spread with the prior's along every direction; the share of prior "
-             "variance left tells how little the demonstrations moved it.</p>")
-    return section("directions", intro + "<h3>Undetermined by the demonstrations</h3>"
-                   + _direction_list(und, False) + "<h3>Determined</h3>"
+             "posterior spread with the prior's along every direction and rounded to a few "
+             "named features; the share of prior variance left tells how little the "
+             "demonstrations moved it.</p>")
+    groups = getattr(report, "groups", [])
+    plain = ("<h3>Determined only in combination</h3>" + '<ul class="plain">'
+             + "".join(f"<li>{escape(g['text'])}</li>" for g in groups) + "</ul>"
+             if groups else "")
+    return section("directions", plain + intro + "<h3>Undetermined by the demonstrations</h3>"
+                   + _direction_list(und, False) + "<h3>Other directions (median and "
+                   f"{report.level:.0%} interval of each combination as printed)</h3>"
                    + _direction_list(det, True))
 
 
@@ -170,35 +188,50 @@ def _structural(report) -> str:
     return section("structural", intro + table(["cause", "features", "finding"], rows, "lll"))
 
 
-def _action_table(probs: list[dict], level: float) -> str:
+def _state_label(s: int, grid) -> str:
+    if grid is not None and s < grid[0] * grid[1]:
+        return "state {} = cell (row {}, col {})".format(s, *divmod(s, grid[1]))
+    return f"state {s}"
+
+
+def _action_table(probs: list[dict], level: float, names=None, grid=None) -> str:
     actions = sorted({p["action"] for p in probs})
     by_state: dict[int, dict[int, dict]] = {}
     for p in probs:
         by_state.setdefault(p["state"], {})[p["action"]] = p
-    rows = [[f"state {s}"] + [f"{num(acts[a]['mean'], '.3f')} {interval(acts[a]['interval'])}"
-                              if a in acts else "\u2013" for a in actions]
+    rows = [[_state_label(s, grid)]
+            + [f"{num(acts[a]['mean'], '.3f')} {interval(acts[a]['interval'])}"
+               if a in acts else "\u2013" for a in actions]
             for s, acts in by_state.items()]
+    head = [names[a] if names else f"action {a}" for a in actions]
     return (f"<h3>Action probabilities (mean and {level:.0%} interval)</h3>"
-            + table(["state"] + [f"action {a}" for a in actions], rows, "l"))
+            + table(["state"] + head, rows, "l"))
 
 
 def _derived(report) -> str:
     lvl = f"{report.level:.0%}"
     ratios = report.derived.get("ratios", [])
     probs = report.derived.get("action_probabilities", [])
-    out = [f"<h3>Trade-off ratios (mean, median and {lvl} interval)</h3>"]
+    out = [f"<h3>Trade-off ratios (median and {lvl} interval)</h3>"]
     if ratios:
-        out.append(table(["ratio", "mean", "median", f"{lvl} interval"],
-                         [[f"{r['numerator']} / {r['denominator']}", num(r["mean"]),
-                           num(r["median"]), interval(r["interval"])] for r in ratios], "l"))
+        out.append(table(["ratio", "median", f"{lvl} interval"],
+                         [[f"{r['numerator']} / {r['denominator']}", num(r["median"]),
+                           interval(r["interval"])] for r in ratios], "l"))
     else:
-        out.append('<p class="note">No weight has a settled sign, so every ratio would be '
-                   "unbounded.</p>")
+        out.append('<p class="note">No weight identified on its own has a settled sign, so '
+                   "every ratio would be unbounded.</p>")
     out.append('<p class="note">Only denominators whose sign is settled at the '
-               f"{lvl} level are used.</p>")
-    out.append(_action_table(probs, report.level) if probs else
-               '<p class="note">No states were asked for: pass <code>states=[...]</code> to '
-               "<code>ambiguity()</code> to see action probabilities.</p>")
+               f"{lvl} level are used, and no weight the data determine only in combination "
+               "(its share of a combination is the prior's). Ratios are heavy-tailed, so no "
+               "mean is shown.</p>")
+    grid = (None if report.posterior is None
+            else report.posterior.model.likelihood.mdp.grid_shape)
+    names = report.derived.get("action_names")
+    out.append(_action_table(probs, report.level, names, grid) if probs else
+               '<p class="note">No states were asked for: add <code>--states</code> with a '
+               "list such as 0,5,12 to <code>bayesirl report</code> (in Python, "
+               "<code>ambiguity(posterior, states=[0, 5, 12])</code>) to see action "
+               "probabilities.</p>")
     return section("derived", "".join(out))
 
 
@@ -208,7 +241,7 @@ def _policy_risk(report) -> str:
              f"{r['alpha']:.0%} posterior probability, at most {num(r['bound'])} in expected "
              f"value from the start states ({r['fraction_bound']:.1%} of the optimal-value "
              f"range); on average it loses {num(r['mean'])} ({r['fraction_mean']:.1%}).")
-    rows = [["bound (quantile " + num(r["alpha"], ".2f") + ")", num(r["bound"]),
+    rows = [[f"bound ({r['alpha']:.0%} quantile)", num(r["bound"]),
              f"{r['fraction_bound']:.1%}"],
             ["mean", num(r["mean"]), f"{r['fraction_mean']:.1%}"],
             ["median", num(r["median"]), "\u2013"]]
@@ -226,13 +259,22 @@ def _maps(report) -> str:
     if report.posterior is None:
         return section("maps", f'<p class="note">{escape(_needs_draws(report))}</p>')
     fig = maps.reward_maps(report.posterior, report.level)
+    if fig is None:
+        return section("maps", figure(
+            maps.state_rewards(report.posterior, report.level),
+            "posterior-median reward of each state with its interval",
+            f"This problem has no grid, so the reward is shown per state: the posterior median "
+            f"(dot) and {report.level:.0%} interval (bar) of each state's reward (for "
+            f"state-action features, the mean over actions). States the demonstrations never "
+            f"visited are red; up to {maps.MAX_STATE_BARS} states are drawn (the most "
+            "uncertain ones when there are more).", "No states to draw."))
     return section("maps", figure(
         fig, "grid maps of posterior-mean reward and interval width with demonstrated paths",
         f"Left: posterior-mean reward of each cell (for state-action features, the mean over "
         f"actions). Right: width of its {report.level:.0%} interval. Lines are the "
         "demonstrated episodes through the cell centres, slightly offset so they do not "
         "hide each other; the white dot marks the start.",
-        "This model has no grid shape (pass grid_shape=(rows, cols) to TabularMDP for maps)."))
+        "No map to draw."))
 
 
 def _diagnostics(report) -> str:

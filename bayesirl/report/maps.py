@@ -130,3 +130,51 @@ def reward_maps(posterior, level: float) -> Figure | None:
     ax_m.legend(fontsize=7, loc="lower left", framealpha=0.85)
     fig.tight_layout()
     return fig
+
+
+# A per-state plot stays readable up to this many states; beyond it only the most uncertain
+# ones are drawn (the caption says so).
+MAX_STATE_BARS = 60
+
+
+def state_rewards(posterior, level: float) -> Figure | None:
+    """For problems without a grid: posterior-median reward of each state with its interval.
+
+    Parameters
+    ----------
+    posterior : Posterior
+    level : float
+        Credible level of the interval drawn per state.
+
+    Returns
+    -------
+    Figure or None
+        None when the model has a grid shape (the maps show the same) or no states.
+    """
+    mdp = posterior.model.likelihood.mdp
+    if mdp.grid_shape is not None or mdp.n_states == 0:
+        return None
+    rew = cell_rewards(posterior)
+    lo, med, hi = np.quantile(rew, [0.5 * (1 - level), 0.5, 0.5 * (1 + level)], axis=0)
+    states = np.arange(mdp.n_states)
+    if states.shape[0] > MAX_STATE_BARS:
+        states = np.sort(np.argsort(-(hi - lo), kind="stable")[:MAX_STATE_BARS])
+    visited = np.zeros(mdp.n_states, dtype=bool)
+    visited[np.unique(posterior.model.likelihood.demos.steps.states)] = True
+    fig = Figure(figsize=(min(11.0, 3.0 + 0.18 * states.shape[0]), 3.4))
+    ax = fig.add_subplot(1, 1, 1)
+    x = np.arange(states.shape[0])
+    colour = np.where(visited[states], "#2b5d8a", "#a33b20")
+    ax.vlines(x, lo[states], hi[states], colors=colour, lw=2.2, alpha=0.8)
+    ax.scatter(x, med[states], c=colour, s=14, zorder=3)
+    ax.axhline(0.0, color="#888888", lw=0.8)
+    ax.set_xticks(x[:: max(1, x.shape[0] // 20)])
+    ax.set_xticklabels([str(s) for s in states[:: max(1, x.shape[0] // 20)]], fontsize=7)
+    ax.set_xlabel("state (blue: visited by the demonstrations, red: never visited)",
+                  fontsize=8)
+    ax.set_ylabel("reward", fontsize=8)
+    ax.set_title(f"posterior-median reward per state with its {level:.0%} interval",
+                 fontsize=10)
+    style_axes(ax)
+    fig.tight_layout()
+    return fig

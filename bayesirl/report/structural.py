@@ -192,7 +192,7 @@ def describe(combination: dict[str, float]) -> str:
     equal = np.allclose(mags, mags[0], rtol=1e-6)
     parts = []
     for k, (name, v) in enumerate(items):
-        coef = "" if equal else f"{abs(v):.2g} "
+        coef = "" if equal or abs(v) == 1 else f"{abs(v):.2g} "
         sign = ("-" if v < 0 else "") if k == 0 else (" - " if v < 0 else " + ")
         parts.append(f"{sign}{coef}{name}")
     return "".join(parts)
@@ -223,10 +223,12 @@ def fisher_findings(likelihood, weights, rtol: float = 1e-6) -> list[Finding]:
         return out
     for v in sparse_basis(flat, tol=1e-6):
         combo = {n: float(x) for n, x in zip(names, v, strict=True) if x != 0}
-        lam = float(v @ info @ v / (v @ v))
+        # An information is >= 0; a tiny negative value is finite-difference rounding.
+        lam = max(float(v @ info @ v / (v @ v)), 0.0)
+        size = "zero within rounding" if lam == 0.0 else f"{lam:.2g}"
         out.append(Finding(list(combo), "flat-information",
                            f"{describe(combo)}: the Fisher information in this direction is "
-                           f"{lam:.2g}, below {rtol:g} of the largest eigenvalue ({top:.3g}); "
+                           f"{size}, below {rtol:g} of the largest eigenvalue ({top:.3g}); "
                            "the likelihood is flat along it near these weights", combo))
     return out
 

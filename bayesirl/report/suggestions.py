@@ -21,7 +21,21 @@ from bayesirl.report.plots import style_axes
 MAP_TOP = 5
 TABLE_TOP = 15
 FIELDS = ("candidate", "gain", "stderr", "target_sd", "target_reduction", "kind", "state",
-          "step")
+          "step", "current_sd", "cumulative_gain", "cumulative_stderr", "p_best",
+          "rank_interval", "settled")
+FLOATS = ("gain", "stderr", "target_sd", "target_reduction", "current_sd", "cumulative_gain",
+          "cumulative_stderr", "p_best")
+# A gain within this many standard errors of zero is shown as "no measurable gain": a mutual
+# information is never negative, and an estimate that noisy says nothing about its size
+# (two standard errors: common practice).
+MEASURABLE_Z = 2.0
+
+
+def _finite(x) -> float | None:
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
 
 
 def as_records(suggestions) -> list[dict]:
@@ -35,14 +49,72 @@ def as_records(suggestions) -> list[dict]:
             raise InputError(f"suggestions[{k}]: expected a record from bayesirl.suggest with "
                              f"fields candidate, gain, stderr; got {item!r}")
         rec = {f: row.get(f) for f in FIELDS}
-        for f in ("gain", "stderr", "target_sd", "target_reduction"):
-            rec[f] = None if rec[f] is None else float(rec[f])
+        for f in FLOATS:
+            rec[f] = _finite(rec[f])  # undefined (no target, not a pick) is null
         for f in ("state", "step"):
             rec[f] = None if rec[f] is None else int(rec[f])
+        rec["rank_interval"] = [int(x) for x in rec["rank_interval"] or ()] or None
+        rec["settled"] = None if rec["settled"] is None else bool(rec["settled"])
         if not isinstance(rec["candidate"], str):
             rec["candidate"] = int(rec["candidate"])
         out.append(rec)
     return out
+
+
+def gain_text(rec: dict) -> str:
+    """The gain for a reader: never negative, "no measurable gain" when within noise."""
+    gain, se = rec.get("gain"), rec.get("stderr") or 0.0
+    if gain is None or gain - MEASURABLE_Z * se <= 0.0:
+        return "no measurable gain"
+    return f"{gain:.3g} \u00b1 {se:.2g}"
+
+
+def cumulative_text(rec: dict) -> str:
+    """The batch's gain so far (picks 1..step), or a dash for the rest of the ranking."""
+    total, se = rec.get("cumulative_gain"), rec.get("cumulative_stderr") or 0.0
+    if not rec.get("step") or total is None:
+        return "\u2013"
+    return gain_text({"gain": total, "stderr": se})
+
+
+def describe_candidate(rec: dict, grid_shape=None, earlier=()) -> str:
+    """A candidate in the problem's own terms: a cell as (row, col) on a grid, else a state.
+
+    ``earlier`` are the records ranked above (a walk from a cell already in the batch is
+    "another walk from ...": a second, independent demonstration from the same start).
+    """
+    state = rec.get("state")
+    if state is None and isinstance(rec.get("candidate"), int):
+        state = rec["candidate"]
+    if state is None:
+        return str(rec.get("candidate"))
+    where = f"state {state}"
+    if grid_shape is not None and state < grid_shape[0] * grid_shape[1]:
+        where = "cell (row {}, col {})".format(*divmod(int(state), int(grid_shape[1])))
+    if rec.get("kind") == "query":
+        return f"ask which move at {where}"
+    again = any(e.get("state") == state and e.get("kind") == "start" and e.get("step")
+                for e in earlier)
+    return f"{'another' if again else 'a'} walk from {where}"
+
+
+def ranking_sentence(records: list[dict]) -> str:
+    """Whether each greedy pick is settled, in words."""
+    settled, unsettled = [], []
+    for r in records:
+        if not r.get("step") or r.get("p_best") is None:
+            continue
+        lo, hi = r.get("rank_interval") or (1, 1)
+        ranks = f"rank {lo}" if lo == hi else f"ranks {lo}\u2013{hi}"
+        item = f"pick {r['step']} is the best with probability {r['p_best']:.2f} ({ranks})"
+        (settled if r.get("settled") else unsettled).append(item)
+    if not settled and not unsettled:
+        return ""
+    if not unsettled:
+        return "Ranking settled: " + ", ".join(settled) + "."
+    return ("Ranking not settled: " + ", ".join(unsettled + settled) + " (rank intervals at "
+            "90%). Candidates with gains close to a pick's are as good a choice; more outer "
+            "samples (--outer) sharpen the ranking.")
 
 
 def _cell_of(rec, rows: int, cols: int):
@@ -90,6 +162,32 @@ def _fmt(x) -> str:
     return "\u2013" if x is None or (isinstance(x, float) and math.isnan(x)) else f"{x:.3g}"
 
 
+def table_rows(records: list[dict], grid_shape=None, top: int = TABLE_TOP):
+    """Header and rows of the suggestions table (shared by the page and the terminal)."""
+    target = any(r.get("target_sd") is not None for r in records)
+    head = ["rank", "suggestion", "batch gain so far", "gain (nats)"]
+    head += ["target sd now", "expected target sd after"] if target else []
+    rows = []
+    for k, r in enumerate(records[:top], start=1):
+        label = describe_candidate(r, grid_shape, records[:k - 1])
+        step = f"batch pick {r['step']}" if r.get("step") else str(k)
+        row = [step, label, cumulative_text(r), gain_text(r)]
+        if target:
+            row += [_fmt(r.get("current_sd")), _fmt(r.get("target_sd"))]
+        rows.append(row)
+    return head, rows
+
+
+def render_text(records: list[dict], grid_shape=None, top: int = TABLE_TOP) -> str:
+    """The suggestions as a terminal table with the ranking sentence below it."""
+    head, rows = table_rows(records, grid_shape, top)
+    widths = [max(len(str(x)) for x in col) for col in zip(head, *rows, strict=True)]
+    lines = ["  ".join(str(x).ljust(w) for x, w in zip(line, widths, strict=True)).rstrip()
+             for line in [head, *rows]]
+    sentence = ranking_sentence(records)
+    return "\n".join(lines + ([sentence] if sentence else []))
+
+
 def render(report) -> str:
     """The HTML section, or an empty string when the report carries no suggestions."""
     from bayesirl.report.html import figure, table  # html imports this module at load
@@ -97,21 +195,24 @@ def render(report) -> str:
     records = getattr(report, "suggestions", None) or []
     if not records:
         return ""
-    rows = [[k, str(r["candidate"]), r.get("kind") or "", _fmt(r["gain"]), _fmt(r["stderr"]),
-             _fmt(r.get("target_sd")), _fmt(r.get("target_reduction"))]
-            for k, r in enumerate(records[:TABLE_TOP], start=1)]
-    head = ["rank", "candidate", "kind", "gain (nats)", "Monte-Carlo se",
-            "expected target sd", "sd reduction"]
+    post = report.posterior
+    grid = None if post is None else post.model.likelihood.mdp.grid_shape
+    head, rows = table_rows(records, grid)
     picks = sum(1 for r in records if (r.get("step") or 0) > 0)
-    words = ("Expected information gain about the weights of one more demonstration (start) "
-             "or one more answer (query) at each candidate. "
-             f"The first {picks} rows are a greedy batch: each gain is given the simulated "
-             "outcomes of the rows above it.")
-    fig = None if report.posterior is None else suggestion_map(report.posterior, records,
-                                                               report.level)
-    body = (f"<p>{escape(words)}</p>" + table(head, rows, "ll")
+    words = ("Expected information gain about the weights (nats, \u00b1 its Monte-Carlo "
+             "standard error) of one more walk, or of one more answer to \"which move here?\". "
+             f"The first {picks} rows are a batch chosen together: each gain is given the "
+             "simulated outcomes of the picks above it, and \"batch gain so far\" adds them up. "
+             "A gain within two standard errors of zero is shown as no measurable gain.")
+    diag = getattr(report, "diagnostics", None) or {}
+    warn = ("" if diag.get("trustworthy", True) else
+            '<p class="fail">The sampler diagnostics failed: these suggestions rest on draws '
+            "that may not represent the posterior.</p>")
+    fig = None if post is None else suggestion_map(post, records, report.level)
+    body = (warn + f"<p>{escape(words)}</p>" + table(head, rows, "ll")
+            + f"<p>{escape(ranking_sentence(records))}</p>"
             + figure(fig, "grid map with the top suggestions numbered",
                      "Posterior-mean reward per cell; numbered markers are the top "
-                     "suggestions (circle: a demonstration from there, square: one query).",
+                     "suggestions (circle: a walk from there, square: one question).",
                      "Only grid problems get a map of the suggestions."))
     return f'<section id="suggestions"><h2>Suggested demonstrations</h2>{body}</section>'

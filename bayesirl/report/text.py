@@ -14,6 +14,9 @@ def render_text(report) -> str:
         c = "-" if r["contraction"] is None else f"{r['contraction']:.2f}"
         lines.append(f"{r['feature']:<14}{r['mean']:9.3f}{r['sd']:8.3f}"
                      f"{f'[{lo:.3f}, {hi:.3f}]':>22}{c:>13}  {r['verdict']:<22}{r['sign']}")
+    groups = [g["text"] for g in getattr(report, "groups", [])]
+    if groups:
+        lines += ["", "determined only in combination:"] + [f"  {t}" for t in groups]
     und = [d["text"] for d in report.directions if d["verdict"] == "undetermined"]
     if und:
         lines += ["", "undetermined directions:"] + [f"  {t}" for t in und]

@@ -1,30 +1,11 @@
-"""Per-feature table and weight-space directions: what the data moved and what they did not."""
+"""Per-feature table and weight-space directions: what the data determine and what they do not."""
 
 from __future__ import annotations
 
 import arviz as az
 import numpy as np
-from scipy.linalg import eigh
 
-from bayesirl.report.structural import describe
-
-# Verdict words from the contraction 1 - Var_post / Var_prior (Schad, Betancourt & Vasishth
-# 2021 use contraction to judge what the data inform). The cut-offs are our own common-practice
-# choice, not a standard: they split "the data did almost all the work" from "the prior still
-# dominates".
-CONTRACTION_VERDICTS = ((0.9, "pinned down"), (0.5, "narrowed"), (0.1, "loosely constrained"),
-                        (-np.inf, "left open"))
-# A direction whose posterior variance is at least this fraction of its prior variance (that
-# is, contraction <= 0.1) is reported as undetermined.
-UNDETERMINED_RATIO = 0.9
-
-
-def verdict(contraction: float) -> str:
-    """Verdict word for a contraction value."""
-    for cut, word in CONTRACTION_VERDICTS:
-        if contraction >= cut:
-            return word
-    return CONTRACTION_VERDICTS[-1][1]
+from bayesirl.report import combinations, verdicts
 
 
 def sign_word(lo: float, hi: float) -> str:
@@ -55,8 +36,14 @@ def prior_variance(posterior, prior=None) -> np.ndarray:
     return var
 
 
-def weights_table(posterior, level: float = 0.9, prior=None, truth=None) -> list[dict]:
-    """One row per feature: mean, sd, median, intervals, contraction, verdict, z-score."""
+def weights_table(posterior, level: float = 0.9, prior=None, truth=None,
+                  tolerance: float | None = None) -> list[dict]:
+    """One row per feature: mean, sd, median, intervals, contraction, verdict, z-score.
+
+    The verdict is read from the interval (:func:`bayesirl.report.verdicts.value_verdict`);
+    :func:`mark_groups` later marks the weights the data determine only in combination.
+    Contraction ``1 - Var_post / Var_prior`` is a column, not the verdict.
+    """
     draws = flat_draws(posterior)
     var_prior = prior_variance(posterior, prior)
     lo, hi = 0.5 * (1 - level), 0.5 * (1 + level)
@@ -81,7 +68,7 @@ def weights_table(posterior, level: float = 0.9, prior=None, truth=None) -> list
             row["contraction"], row["verdict"] = None, "pinned by assumption"
         else:
             row["contraction"] = float(1.0 - sd**2 / var_prior[i])
-            row["verdict"] = verdict(row["contraction"])
+            row["verdict"] = verdicts.value_verdict(*row["interval"], tolerance)
         if truth is not None:
             row["truth"] = float(truth[i])
             row["z_score"] = None if pinned or sd == 0 else float((x.mean() - truth[i]) / sd)
@@ -89,35 +76,32 @@ def weights_table(posterior, level: float = 0.9, prior=None, truth=None) -> list
     return rows
 
 
-def directions(posterior, level: float = 0.9, prior=None) -> list[dict]:
-    """Generalised eigen-directions of the posterior covariance against the prior's.
-
-    Solves ``Cov_post v = r Cov_prior v`` over the free weights; ``r`` is the fraction of the
-    prior variance left along ``v``. Directions are scaled so the largest coefficient is 1.
-    """
+def free_draws(posterior, prior=None):
+    """Draws, names and prior variances of the free (not pinned) weights."""
     names = posterior.feature_names
     free = [i for i, n in enumerate(names) if n not in posterior.model.pin]
-    draws = flat_draws(posterior)[:, free]
-    cov_post = np.atleast_2d(np.cov(draws, rowvar=False))
-    cov_prior = np.diag(prior_variance(posterior, prior)[free])
-    ratios, vecs = eigh(cov_post, cov_prior)
-    lo, hi = 0.5 * (1 - level), 0.5 * (1 + level)
-    out = []
-    for r, v in sorted(zip(ratios, vecs.T, strict=True), key=lambda t: -t[0]):
-        v = v / v[np.argmax(np.abs(v))]
-        v[np.abs(v) < 0.05] = 0.0  # readable: drop features that barely take part
-        combo = {names[i]: round(float(c), 3) for i, c in zip(free, v, strict=True) if c != 0}
-        proj = draws @ v
-        interval = [float(np.quantile(proj, lo)), float(np.quantile(proj, hi))]
-        undetermined = r >= UNDETERMINED_RATIO
-        text = describe(combo)
-        out.append({
-            "combination": combo,
-            "variance_ratio": float(r),
-            "verdict": "undetermined" if undetermined else "determined",
-            "interval": interval,
-            "text": (f"{text} is undetermined (the data left {r:.0%} of its prior variance)"
-                     if undetermined else
-                     f"{text} is pinned to [{interval[0]:.3g}, {interval[1]:.3g}]"),
-        })
-    return out
+    return (flat_draws(posterior)[:, free], [names[i] for i in free],
+            prior_variance(posterior, prior)[free])
+
+
+def directions(posterior, level: float = 0.9, prior=None, tolerance=None) -> list[dict]:
+    """Directions in weight space as short rounded combinations (see
+    :func:`bayesirl.report.combinations.directions`)."""
+    return combinations.directions(*free_draws(posterior, prior), level, tolerance)
+
+
+def groups(posterior, dirs: list[dict], structural: list[dict], level: float = 0.9,
+           prior=None, tolerance=None) -> list[dict]:
+    """Groups of weights determined only in combination, with what is determined (see
+    :func:`bayesirl.report.combinations.identified_groups`)."""
+    return combinations.identified_groups(*free_draws(posterior, prior), dirs, structural,
+                                          level, tolerance)
+
+
+def mark_groups(table: list[dict], found: list[dict]) -> None:
+    """Override the verdict of weights the data leave undetermined on their own."""
+    for g in found:
+        word = verdicts.COMBINATION_ONLY if len(g["features"]) > 1 else verdicts.NOT_IDENTIFIED
+        for row in table:
+            if row["feature"] in g["features"] and not row["pinned"]:
+                row["verdict"] = word

@@ -114,6 +114,30 @@ def _write_park(folder: Path) -> tuple[Path, Path]:
                                               [f"walk-{k + 1}" for k in range(40)])
 
 
+# The park after rain: every muddy cell is also wet, so the walkers' routes can only ever tell
+# how much mud-and-wet together is avoided, never how the avoidance splits between the two.
+WET_PARK_TOML = (PARK_TOML
+                 .replace("# bayesirl problem: a walker crossing a small park",
+                          "# bayesirl problem: a walker crossing a small park after rain")
+                 .replace('title = "park walks"', 'title = "park walks after rain"')
+                 .replace('features = ["mud", "slope", "shade", "water"]',
+                          'features = ["mud", "slope", "shade", "water", "wet"]')
+                 .replace('"m" = {{ mud = 1 }}'.replace("{{", "{").replace("}}", "}"),
+                          '"m" = { mud = 1, wet = 1 }'))
+# Weights of the invented walkers: mud + wet = -1 as in the park; the split is arbitrary and
+# cannot be learned.
+WET_PARK_WEIGHTS = np.array([-0.6, -0.5, 0.3, 2.0, -0.4])
+WET_PARK_WALKS = 100
+
+
+def _write_wet_park(folder: Path) -> tuple[Path, Path]:
+    problem_path = write_text(folder / "park.toml", WET_PARK_TOML)
+    problem = read_problem(problem_path)
+    demos = simulate(problem.mdp, WET_PARK_WEIGHTS, episodes=WET_PARK_WALKS, length=15, seed=1)
+    return problem_path, write_demonstrations(folder / "walks.csv", demos, problem,
+                                              [f"walk-{k + 1}" for k in range(WET_PARK_WALKS)])
+
+
 def _write_machine(folder: Path) -> tuple[Path, Path]:
     p, phi = machine_arrays()
     start = np.zeros(p.shape[0])
@@ -132,6 +156,9 @@ def _write_machine(folder: Path) -> tuple[Path, Path]:
 EXAMPLES = {
     "park": Example("park", "a walker's routes across a park grid with mud, slopes, shade "
                             "and a water fountain (4 features, 42 cells)", _write_park),
+    "wet-park": Example("wet-park", "the park after rain: every muddy cell is also wet, so "
+                                    "only mud + wet can be learned (5 features, 100 walks)",
+                        _write_wet_park),
     "machine": Example("machine", "when to replace a machine as it wears: keep or replace "
                                   "each month at 80 wear levels, discount 0.999 (a dynamic "
                                   "discrete choice)",

@@ -21,7 +21,8 @@ from bayesirl.posterior.progress import ChainProgress
 
 from .problems import PRIOR, two_feature_likelihood
 
-LINE = re.compile(r"\x1b\[2Kchain (\d+): \[([#-]{30})\] (\d+)/(\d+)  step (\S+)  divergent (\d+)$")
+LINE = re.compile(r"\x1b\[2Kchain (\d+): \[([#-]{30})\] (\d+)/(\d+)  step (\S+)  divergent (\d+)"
+                  r"(?:  about (\S+) left|  done)?$")
 
 
 class FakeTTY(io.StringIO):
@@ -82,6 +83,23 @@ def test_one_line_per_chain_on_a_terminal():
         m = LINE.match(line)
         assert m.group(2) == "#" * 30 and (m.group(3), m.group(4)) == ("20", "20")
         assert float(m.group(5)) == 0.25 * (k + 1) and int(m.group(6)) == k
+
+
+def test_time_left_follows_the_pace(monkeypatch):
+    # A fake clock: 0.5 s per iteration, so after 10 of 100 iterations (9 timed since the
+    # first update) about 90 * 0.5 = 45 s are left; a finished chain says done.
+    clock = SimpleNamespace(t=0.0)
+    monkeypatch.setattr(progress, "time", SimpleNamespace(monotonic=lambda: clock.t))
+    stream = FakeTTY()
+    bar = ChainProgress(1, 100, stream=stream)
+    for done in range(1, 11):
+        clock.t += 0.5
+        bar.update(0, done, 0.1, 0)
+    assert bar._eta[0] == "  about 45s left"
+    bar.update(0, 100, 0.1, 0)
+    assert bar._eta[0] == "  done"
+    assert progress.format_duration(125) == "2m05s"
+    assert progress.format_duration(3725) == "1h02m"
 
 
 def test_redraws_at_most_ten_times_a_second(monkeypatch):

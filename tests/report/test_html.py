@@ -80,9 +80,10 @@ def test_every_section_once_and_verdict_first(pages, name):
     assert f'<p class="verdict">{escape(report.verdict)}</p>' in section_of(text, "verdict")
 
 
-@pytest.mark.parametrize("name, expected", [("pass", 5), ("fail", 5), ("ring", 4)])
+@pytest.mark.parametrize("name, expected", [("pass", 5), ("fail", 5), ("ring", 5)])
 def test_images_are_embedded_pngs(pages, name, expected):
-    # Park: marginals, pairs, ranks, risk, maps. The ring has no grid, hence no maps.
+    # Park: marginals, pairs, ranks, risk, maps. The ring has no grid: a per-state reward
+    # plot takes the maps' place.
     page = Page(pages[name][2])
     assert len(page.images) == expected
     for img in page.images:
@@ -142,7 +143,7 @@ def test_weights_table_and_marginals(pages):
 def test_directions_and_structural_findings_in_words(pages):
     report, _, text = pages["ring"]
     directions = section_of(text, "directions")
-    und = directions[directions.index("Undetermined"):directions.index("<h3>Determined")]
+    und = directions[directions.index("Undetermined"):directions.index("<h3>Other directions")]
     assert any(d["verdict"] == "undetermined" for d in report.directions)
     for d in report.directions:
         assert escape(d["text"]) in (und if d["verdict"] == "undetermined" else directions)
@@ -173,7 +174,8 @@ def test_policy_risk_and_maps(pages):
     assert report_html.num(risk["mean"]) in part
     assert f"{risk['fraction_bound']:.1%}" in part and "<img" in part
     assert "<img" in section_of(text, "maps")
-    assert "no grid shape" in section_of(pages["ring"][2], "maps")
+    ring = section_of(pages["ring"][2], "maps")
+    assert "<img" in ring and "no grid, so the reward is shown per state" in ring
 
 
 def test_diagnostics_against_thresholds(pages):

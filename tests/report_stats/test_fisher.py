@@ -87,3 +87,14 @@ def test_collinear_triple_is_flat_at_any_weights():
                                                                ["f1", "f2", "f3"])]
     c = np.array([found[0].combination[n] for n in mdp.feature_names])
     np.testing.assert_allclose(c / c[1], [0.5, 1.0, -0.5], atol=1e-4)
+
+
+def test_flat_direction_never_prints_a_negative_information():
+    # An information (a variance of the score) is >= 0; along an exactly flat direction the
+    # finite-difference value is rounding noise of either sign and must not print as negative.
+    post = mud2_posterior()
+    found = structural.fisher_findings(_fresh(post), _mean(post))
+    assert found, "the mud - mud2 direction is flat"
+    for f in found:
+        size = f.message.split("in this direction is ")[1].split(",")[0]
+        assert size == "zero within rounding" or float(size) >= 0.0, f.message

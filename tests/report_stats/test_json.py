@@ -17,12 +17,12 @@ import bayesirl as bi
 from bayesirl import files as report_files
 from bayesirl.report import ambiguity
 from bayesirl.report.structural import describe
-from bayesirl.report.weights import CONTRACTION_VERDICTS
+from bayesirl.report.verdicts import WORDS
 
 from .problems import mud2_report
 
 TOP_KEYS = {"weights", "directions", "structural", "derived", "policy_risk", "diagnostics"}
-VERDICTS = {word for _, word in CONTRACTION_VERDICTS} | {"pinned by assumption"}
+VERDICTS = set(WORDS)
 CAUSES = {"constant", "collinear", "shaping", "unvisited", "thin-data", "flat-information"}
 
 
@@ -68,7 +68,7 @@ def test_json_has_the_documented_fields(tmp_path):
         assert d["combination"] and set(d["combination"]) <= set(names)
         assert all(_number(c) for c in d["combination"].values())
         assert _number(d["variance_ratio"]) and d["variance_ratio"] >= 0
-        assert d["verdict"] in {"undetermined", "determined"}
+        assert d["verdict"] in VERDICTS | {"undetermined"}
     assert data["structural"]  # collinear mud/mud2 and the flat Fisher direction
     for f in data["structural"]:
         assert {"features", "cause", "message"} <= set(f)

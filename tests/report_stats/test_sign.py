@@ -7,6 +7,7 @@ from types import SimpleNamespace
 import pytest
 
 from bayesirl.report.ambiguity import headline
+from bayesirl.report.verdicts import value_verdict
 from bayesirl.report.weights import sign_word
 
 
@@ -20,7 +21,12 @@ def test_sign_word(lo, hi, word):
 
 
 def _report(signs):
-    rows = [{"feature": f"f{k}", "verdict": "narrowed", "sign": s} for k, s in enumerate(signs)]
+    # The verdict follows the interval: a settled sign here is "sign known", an open one
+    # "sign open" (bayesirl.report.verdicts.value_verdict).
+    intervals = {"positive": [0.5, 3.0], "negative": [-3.0, -0.5], "not settled": [-1.0, 1.0]}
+    rows = [{"feature": f"f{k}", "sign": s, "median": sum(intervals[s]) / 2,
+             "interval": intervals[s], "verdict": value_verdict(*intervals[s])}
+            for k, s in enumerate(signs)]
     return SimpleNamespace(
         weights=rows, level=0.9, directions=[], structural=[],
         diagnostics={"trustworthy": True, "warnings": []},
@@ -29,7 +35,10 @@ def _report(signs):
 
 
 def test_headline_names_weights_whose_sign_is_open():
-    assert "not settled" not in headline(_report(["positive", "negative"]))
+    assert "open" not in headline(_report(["positive", "negative"]))
     text = headline(_report(["positive", "not settled", "not settled"]))
-    assert "The sign of f1, f2 is not settled: each interval contains zero." in text
-    assert "The sign of f0 is not settled: its interval" in headline(_report(["not settled"]))
+    assert ("leave the sign of f1 0 [-1, 1] and f2 0 [-1, 1] open (the intervals contain "
+            "zero)") in text
+    assert "settle only the sign of f0 1.75 [0.5, 3]" in text
+    assert "sign of f0 0 [-1, 1] open (the interval contains zero)" in headline(
+        _report(["not settled"]))
