@@ -21,6 +21,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.optimize import minimize
 
+from bayesirl.errors import SolverError
+
 # |correlation| at least this at the mode switches the dense mass matrix on (our own
 # threshold: at 0.9 a diagonal metric's step is about sqrt(1 - 0.9^2) ~ 0.44 of the ridge's
 # width along its narrow axis, and trees deepen quickly beyond it).
@@ -51,9 +53,9 @@ def _laplace_correlation(lik, prior_var: np.ndarray, prior_loc: np.ndarray):
         cov = np.linalg.inv(precision)
     except np.linalg.LinAlgError:
         return 1.0, (0, min(1, f - 1))
+    cov = 0.5 * (cov + cov.T)  # inv() of a symmetric matrix is symmetric only to rounding
     sd = np.sqrt(np.clip(np.diag(cov), 1e-300, None))
-    corr = cov / np.outer(sd, sd)
-    np.fill_diagonal(corr, 0.0)
+    corr = np.triu(cov / np.outer(sd, sd), k=1)  # each pair once, named in feature order
     i, j = np.unravel_index(int(np.argmax(np.abs(corr))), corr.shape)
     return float(abs(corr[i, j])), (int(i), int(j))
 
@@ -91,7 +93,10 @@ def choose(problem, lik, settings: dict) -> tuple[dict, str | None]:
     prior_var = np.asarray(problem.prior.variance(len(names)), dtype=float)
     loc = getattr(problem.prior, "loc", 0.0)
     prior_loc = np.broadcast_to(np.asarray(loc, dtype=float), prior_var.shape).copy()
-    rho, (i, j) = _laplace_correlation(lik, prior_var, prior_loc)
+    try:
+        rho, (i, j) = _laplace_correlation(lik, prior_var, prior_loc)
+    except SolverError:  # no decision; sampling reports the solver's trouble in full
+        return settings, None
     if rho < CORRELATION:
         return settings, None
     reason = (f"{names[i]} and {names[j]} are correlated {rho:.2f} near the posterior mode "

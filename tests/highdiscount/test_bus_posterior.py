@@ -21,12 +21,12 @@ from .quadrature import grid_moments
 PRIOR_SD = 5.0  # bayesirl's default prior on the weights: Normal(0, 5), written out here
 
 
-def _check(discount, chains, draws, warmup, seed, grid_points):
+def _check(discount, chains, draws, warmup, seed, grid_points, dense_mass=False):
     demos = simulate(bus.bus_mdp(discount), bus.TRUTH, episodes=100, length=100,
                      seed=20261203, start=0)
     lik = BoltzmannLikelihood(bus.bus_mdp(discount), demos)
     post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed, progress=False,
-                  processes=min(chains, 2))
+                  processes=min(chains, 2), dense_mass=dense_mass)
     exact = BoltzmannLikelihood(bus.bus_mdp(discount), demos, tol=0.0)
 
     def log_post(theta):
@@ -49,7 +49,10 @@ def _check(discount, chains, draws, warmup, seed, grid_points):
 
 
 def test_nuts_equals_quadrature_at_0_9999():
-    _check(0.9999, chains=4, draws=500, warmup=500, seed=3, grid_points=61)
+    # Shorter chains than the defaults, so the dense mass matrix that `fit` chooses for this
+    # ridge (theta1 and RC are strongly correlated a posteriori): with a diagonal one, 4 x 500 draws
+    # leave a bulk-ESS near 450 and R-hat straddles 1.01 from seed to seed (seen 1.018).
+    _check(0.9999, chains=4, draws=500, warmup=500, seed=3, grid_points=61, dense_mass=True)
 
 
 @pytest.mark.slow
