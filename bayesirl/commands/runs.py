@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import sys
 from pathlib import Path
 
@@ -45,6 +46,18 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     dict
         The summary written.
     """
+    summary = save_draws(run, posterior, record, complete)
+    if complete:
+        summary = write_report(run, posterior, summary, level, quiet)
+    return summary
+
+
+def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
+    """``posterior.nc`` and a ``summary.json`` without the report (written next, if complete).
+
+    A complete run whose summary has no ``report`` yet can be rendered by ``bayesirl report``
+    or ``bayesirl fit --resume``: the draws are all there.
+    """
     drawn = posterior is not None and posterior.n_draws > 0
     summary = {"format": RUN_FORMAT, "complete": bool(complete),
                "bayesirl_version": bayesirl.__version__, **record,
@@ -52,18 +65,36 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     if drawn:
         posterior.save(run.posterior)
     if complete:
-        from bayesirl.report import ambiguity
-
-        report = ambiguity(posterior, level=level)
-        report.to_html(run.report)
-        summary.update(level=level, report=report.as_dict())
-        if not quiet:
-            print(report.table())
+        summary["note"] = ("sampling finished; report.html is written next (if it is missing, "
+                           "write it with bayesirl report <this folder>)")
     else:
         summary["note"] = ("interrupted: the draws so far are in posterior.nc and the sampler "
                            "state in checkpoint; continue with bayesirl fit --resume "
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
+    return summary
+
+
+def started_summary(record: dict) -> dict:
+    """The summary of a run that has just started (a resume after a kill needs the record)."""
+    return {"format": RUN_FORMAT, "complete": False, "bayesirl_version": bayesirl.__version__,
+            **record, "draws_done": 0, "pid": os.getpid(),
+            "note": "sampling: if this run was killed, continue it with bayesirl fit --resume"}
+
+
+def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAULT_LEVEL,
+                 quiet: bool = False) -> dict:
+    """``report.html`` and the report's numbers in ``summary.json`` (draws already saved)."""
+    from bayesirl.report import ambiguity
+
+    report = ambiguity(posterior, level=level)
+    report.to_html(run.report)
+    drop = ("note", "pid") if summary.get("complete") else ("pid",)
+    summary = {k: v for k, v in summary.items() if k not in drop}
+    summary.update(level=level, report=report.as_dict())
+    write_json(run.summary, summary)
+    if not quiet:
+        print(report.table())
     return summary
 
 

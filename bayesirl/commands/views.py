@@ -12,7 +12,8 @@ from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
 
 
-def _load_posterior(run: RunFolder, summary: dict):
+def load_posterior(run: RunFolder, summary: dict | None = None):
+    """The run's posterior, or an :class:`InputError` naming the file."""
     from bayesirl.posterior import Posterior
 
     if not run.posterior.is_file():
@@ -21,7 +22,7 @@ def _load_posterior(run: RunFolder, summary: dict):
         return Posterior.load(run.posterior)
     except InputError:
         raise
-    except (OSError, ValueError, KeyError) as err:
+    except (OSError, ValueError, KeyError, TypeError, IndexError, AttributeError) as err:
         raise InputError(f"{run.posterior}: not a readable posterior file "
                          f"({type(err).__name__}: {err})") from None
 
@@ -35,7 +36,7 @@ def report_command(args) -> int:
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
-    posterior = _load_posterior(run, summary)
+    posterior = load_posterior(run, summary)
     report = ambiguity(posterior, level=args.level)
     report.to_html(run.report)
     summary.update(level=args.level, report=report.as_dict())
@@ -81,7 +82,7 @@ def suggest_command(args) -> int:
         check_arguments(scheduler, None, False, None)
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
-    posterior = _load_posterior(run, summary)
+    posterior = load_posterior(run, summary)
     names = posterior.feature_names
     if args.target is not None and args.target not in names:
         raise InputError(f"--target: unknown feature {args.target!r}; features are "

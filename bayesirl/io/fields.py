@@ -48,6 +48,9 @@ def load_toml(path: Path) -> dict:
     except tomllib.TOMLDecodeError as err:
         hint = "; the file seems truncated" if "end of document" in str(err) else ""
         raise InputError(f"{path}: not valid TOML: {err}{hint}") from None
+    except RecursionError:
+        raise InputError(f"{path}: arrays or tables nested too deeply to be a problem "
+                         "file") from None
 
 
 class Table:
