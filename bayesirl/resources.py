@@ -14,6 +14,7 @@ from bayesirl.errors import InputError
 
 MAX_CHAINS = 1000  # more chains than this is a typo, not a plan: each is a process's work
 MAX_HORIZON = 10**6  # the finite-horizon solver keeps a policy per step
+MAX_BUDGET = 100  # demonstrations chosen together by suggest: each pick re-scores all
 MEMORY_SHARE = 0.5
 STATS_PER_DRAW = 8  # sampler statistics kept beside each draw (step size, depth, ...)
 

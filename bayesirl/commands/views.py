@@ -10,6 +10,7 @@ from bayesirl.commands.runs import say
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
+from bayesirl.resources import MAX_BUDGET
 
 
 def load_posterior(run: RunFolder, summary: dict | None = None):
@@ -33,10 +34,10 @@ def report_command(args) -> int:
 
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
+    posterior = load_posterior(run, summary)
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
-    posterior = load_posterior(run, summary)
     report = ambiguity(posterior, level=args.level)
     report.to_html(run.report)
     summary.update(level=args.level, report=report.as_dict())
@@ -80,6 +81,9 @@ def suggest_command(args) -> int:
         from bayesirl.posterior.cluster import check_arguments
 
         check_arguments(scheduler, None, False, None)
+    if args.budget > MAX_BUDGET:  # each pick re-scores every candidate
+        raise InputError(f"--budget: {args.budget} is more than the limit of {MAX_BUDGET} "
+                         "demonstrations chosen together")
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = load_posterior(run, summary)

@@ -179,6 +179,9 @@ def _sparse(data: dict, path: Path) -> sp.csr_matrix:
                          "positive integer")
     n_s = int(n_s)
     arrays = [data[k] for k in SPARSE_KEYS]
+    if arrays[0].dtype == np.float16:  # scipy.sparse has no half precision
+        raise InputError(f"{path}: 'transitions_data' has dtype float16; store float32 or "
+                         "float64 probabilities")
     try:
         csr_arrays(*arrays, n_s)
     except InputError as err:

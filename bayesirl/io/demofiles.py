@@ -220,6 +220,8 @@ def _jsonl_episode(path, line, obj, problem, k) -> _Episode:
             if not (isinstance(x, list) and len(x) == 2):
                 raise InputError(f"{path} line {line}: cell {x!r} is not a [row, col] pair")
             ep.states.append(_state(path, line, problem, row=x[0], col=x[1]))
+        elif x is None:  # not "no state given", which means row/col to _state
+            raise InputError(f"{path} line {line}: state None is not a whole number")
         else:
             ep.states.append(_state(path, line, problem, x))
     ep.actions = [_action(path, line, problem, a) for a in obj["actions"]]
