@@ -109,14 +109,15 @@ def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bo
         stage.discard()
         raise
     try:
-        with held():
+        with held() as late:
             summary = save_draws(run, done["posterior"], record, complete=True)
             stage.commit()
     except Exception:  # the finished checkpoint stays: a resume saves the draws at once
         print(f"the finished sampler state is kept in {stage.path}; save it again with: "
               f"bayesirl fit --resume {shlex.quote(str(stage.target))}", file=sys.stderr)
         raise
-    if done.get("signal"):  # stopped as sampling ended: keep the draws, skip the report
+    if done.get("signal") or late:  # stopped as sampling ended: keep the draws, no report
+        _remove(RunFolder(stage.target).checkpoint)
         return _report_skipped(RunFolder(stage.target))
     return render(args, RunFolder(stage.target), done["posterior"], summary)
 

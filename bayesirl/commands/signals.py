@@ -2,9 +2,9 @@
 
 While :func:`bayesirl.sample` runs it installs its own handlers (which also stop its worker
 processes) and puts these back when it returns. Outside sampling a SIGINT or SIGTERM raises
-``KeyboardInterrupt``, except inside :func:`held`, where it is remembered and raised when the
-section ends: the few file writes and renames that move a sampled run into place are never cut
-in half, so a finished run cannot be lost to a badly timed signal.
+``KeyboardInterrupt``, except inside :func:`held`, where it is only remembered, for the caller
+to act on when the section ends: the few file writes and renames that move a sampled run into
+place are never cut in half, so a finished run cannot be lost to a badly timed signal.
 """
 
 from __future__ import annotations
@@ -40,9 +40,9 @@ def stop_on_signals() -> Iterator[None]:
 
 @contextmanager
 def held() -> Iterator[list]:
-    """Defer SIGINT and SIGTERM to the end of the block (then ``KeyboardInterrupt``).
+    """Hold SIGINT and SIGTERM during the block: yields the list of those that arrived.
 
-    Yields the list of signals received so far (for tests and messages).
+    The caller checks the list after the block and stops as the signal asked.
     """
     received: list[int] = []
     if not _main_thread():
@@ -58,5 +58,3 @@ def held() -> Iterator[list]:
     finally:
         for s, handler in previous.items():
             signal.signal(s, handler)
-    if received:
-        raise KeyboardInterrupt
