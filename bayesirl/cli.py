@@ -11,7 +11,7 @@ import sys
 import traceback
 from pathlib import Path
 
-from bayesirl.commands.signals import stop_on_signals
+from bayesirl.commands.signals import acknowledge, stop_on_signals
 from bayesirl.errors import InputError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
@@ -264,6 +264,7 @@ def main(argv: list[str] | None = None) -> int:
         print(f"bayesirl {args.command}: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
+        acknowledge()
         print(f"bayesirl {args.command}: interrupted before any result was saved; nothing was "
               "written", file=sys.stderr)
         return 130

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import bayesirl
 from bayesirl.commands.runs import inputs_record, save_draws, say, started_summary, write_report
-from bayesirl.commands.signals import held
+from bayesirl.commands.signals import acknowledge, held
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
@@ -91,12 +91,14 @@ def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bo
             write_json(run.summary, started_summary(record))
         done["posterior"] = _sample(args, problem, lik, settings, run, resume)
     except bayesirl.Interrupted as err:  # a KeyboardInterrupt subclass
+        acknowledge()
         with held():
             save_draws(run, err.posterior, record, complete=False)
             stage.commit()
         return _interrupted(stage.target)
     except KeyboardInterrupt:  # a second Ctrl-C, or a signal just before/after sampling
         done["signal"] = True
+        acknowledge()
         if "posterior" not in done:
             if not run.checkpoint.is_file():
                 stage.discard()
@@ -128,6 +130,7 @@ def render(args, out: RunFolder, posterior, summary: dict) -> int:
         _remove(out.checkpoint)  # a finished run needs no sampler state
         write_report(out, posterior, summary, args.level, args.quiet)
     except KeyboardInterrupt:
+        acknowledge()
         return _report_skipped(out)
     say(args, f"wrote {out.root}/posterior.nc, summary.json and report.html")
     return 0

@@ -11,9 +11,9 @@ import math
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from posterior.problems import PRIOR, small_mdp, two_feature_likelihood
 
 import bayesirl as bi
+from posterior.problems import PRIOR, small_mdp, two_feature_likelihood
 
 SAMPLE = [
     # (id, keyword arguments of sample, fragments of the message)
