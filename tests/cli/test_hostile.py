@@ -372,6 +372,13 @@ RUNS = [
     ("suggest-budget-huge", {}, ["suggest", "r", "--budget", str(10**9)],
      ["--budget: 1000000000 is more than the limit of 100"]),
     ("suggest-not-a-run", {"r/x": "x"}, ["suggest", "r"], ["r/summary.json: missing"]),
+    ("example-over-own-file", {"ex/park.toml": "my own problem"}, ["example", "park", "ex"],
+     ["ex/park.toml: already exists and is not the example's file"]),
+    ("example-over-own-folder", {"ex/walks.csv/x": "x"}, ["example", "park", "ex"],
+     ["ex/walks.csv: already exists and is not the example's file"]),
+    ("example-force-over-own-run", {"ex/run/thesis.tex": "x"}, ["example", "park", "ex",
+                                                                 "--force"],
+     ["ex/run: not a run folder made by bayesirl fit"]),
 ]
 
 CASES = OUTPUT + ARRAYS + TOML + DEMOS + RUNS
