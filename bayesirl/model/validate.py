@@ -67,9 +67,8 @@ def csr_arrays(data, indices, indptr, n_cols: int, what: str = "transitions") ->
                          f"outside 0..{n_cols - 1}")
 
 
-def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
-    """Return the canonical ``(S*A, S)`` CSR matrix, ``S`` and ``A`` after checking it."""
-    dtype = np.dtype(getattr(transitions, "dtype", np.float64))
+def _as_csr(transitions) -> tuple[sp.csr_matrix, int, int]:
+    """A float64 CSR copy of sparse ``(S*A, S)`` or dense ``(S, A, S)`` transitions."""
     if sp.issparse(transitions):
         if transitions.format == "csr":
             csr_arrays(transitions.data, transitions.indices, transitions.indptr,
@@ -85,26 +84,31 @@ def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
                 f"transitions: sparse matrix must have shape (S*A, S); got {m.shape}, "
                 f"and {n_rows} rows is not a multiple of {n_s} states"
             )
-        n_a = n_rows // n_s
-    else:
-        _numeric(transitions, "transitions")
-        try:
-            dense = np.asarray(transitions, dtype=np.float64)
-        except (TypeError, ValueError) as err:
-            raise InputError(f"transitions: not a numeric array ({err})") from None
-        if dense.ndim != 3 or dense.shape[0] != dense.shape[2] or dense.shape[0] == 0:
-            raise InputError(
-                f"transitions: dense array must have shape (S, A, S); got {dense.shape}"
-            )
-        n_s, n_a = dense.shape[0], dense.shape[1]
-        bad = ~np.isfinite(dense) | (dense < 0)
-        if bad.any():
-            s, a, s2 = (int(i) for i in np.argwhere(bad)[0])
-            raise InputError(
-                f"transitions: P(s'={s2} | s={s}, a={a}) = {dense[s, a, s2]!r}; "
-                "probabilities must be finite and non-negative"
-            )
-        m = sp.csr_matrix(dense.reshape(n_s * n_a, n_s))
+        return m, n_s, n_rows // n_s
+    _numeric(transitions, "transitions")
+    try:
+        dense = np.asarray(transitions, dtype=np.float64)
+    except (TypeError, ValueError) as err:
+        raise InputError(f"transitions: not a numeric array ({err})") from None
+    if dense.ndim != 3 or dense.shape[0] != dense.shape[2] or dense.shape[0] == 0:
+        raise InputError(
+            f"transitions: dense array must have shape (S, A, S); got {dense.shape}"
+        )
+    n_s, n_a = dense.shape[0], dense.shape[1]
+    bad = ~np.isfinite(dense) | (dense < 0)
+    if bad.any():
+        s, a, s2 = (int(i) for i in np.argwhere(bad)[0])
+        raise InputError(
+            f"transitions: P(s'={s2} | s={s}, a={a}) = {dense[s, a, s2]!r}; "
+            "probabilities must be finite and non-negative"
+        )
+    return sp.csr_matrix(dense.reshape(n_s * n_a, n_s)), n_s, n_a
+
+
+def transition_matrix(transitions) -> tuple[sp.csr_matrix, int, int]:
+    """Return the canonical ``(S*A, S)`` CSR matrix, ``S`` and ``A`` after checking it."""
+    dtype = np.dtype(getattr(transitions, "dtype", np.float64))
+    m, n_s, n_a = _as_csr(transitions)
     if n_a == 0:
         raise InputError("transitions: there must be at least one action")
     m.sum_duplicates()
