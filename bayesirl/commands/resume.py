@@ -33,12 +33,22 @@ def _where(given: Path) -> tuple[Path, Path]:
     if target is not None and given.is_dir():
         return given, target
     if os.path.lexists(given):
-        return given, given
+        return _newer_partial(given) or given, given
     found = partials(given)
     if not found:
         raise InputError(f"{given}: no such run folder (and no interrupted run of that name "
                          f"left a checkpoint in a hidden {given.name}.partial-* folder)")
     return found[0], given
+
+
+def _newer_partial(given: Path) -> Path | None:
+    """A killed resume of ``given`` left a newer checkpoint in a hidden folder: use it."""
+    mine = given / "checkpoint"
+    if not mine.is_file():
+        return None
+    newer = [p for p in partials(given) if owner_alive(p) is None
+             and (p / "checkpoint").stat().st_mtime > mine.stat().st_mtime]
+    return newer[0] if newer else None
 
 
 def recorded(summary: dict, path: Path) -> dict:

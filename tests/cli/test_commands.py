@@ -258,3 +258,26 @@ def test_machine_example_in_process(tmp_path, capsys):
         # A 90% interval misses the simulated truth 10% of the time; a 99.9% band (mean
         # +- 3.3 sd) missing it would point to a bug, not bad luck.
         assert abs(row["mean"] - truth[row["feature"]]) < 3.3 * row["sd"], row
+
+
+def test_resume_prefers_a_newer_checkpoint_left_by_a_killed_resume(tiny, monkeypatch, capsys):
+    import os
+
+    from bayesirl.posterior import chains
+    from bayesirl.posterior.interrupt import StopHook
+
+    folder = tiny[0].parent
+    monkeypatch.setattr(chains, "TEST_STOP", StopHook(chain=0, iteration=70))
+    assert _fit(tiny, "run", "--chains", "1") == 130  # interrupted after some draws
+    monkeypatch.setattr(chains, "TEST_STOP", None)
+    run = folder / "run"
+    assert json.loads((run / "summary.json").read_text())["complete"] is False
+    # What a resume killed outright leaves: a hidden copy with a newer checkpoint.
+    kept = folder / ".run.partial-killed"
+    shutil.copytree(run, kept)
+    later = (run / "checkpoint").stat().st_mtime + 10
+    os.utime(kept / "checkpoint", (later, later))
+    capsys.readouterr()
+    assert main(["fit", "--resume", str(run)]) == 0
+    assert f"resuming from {kept}" in capsys.readouterr().err
+    assert not kept.exists() and json.loads((run / "summary.json").read_text())["complete"]
