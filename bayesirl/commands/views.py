@@ -6,7 +6,7 @@ import inspect
 import sys
 from pathlib import Path
 
-from bayesirl.commands.runs import say
+from bayesirl.commands.runs import say, write_report
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
@@ -30,20 +30,13 @@ def load_posterior(run: RunFolder, summary: dict | None = None):
 
 def report_command(args) -> int:
     """Re-render a run folder's report (and summary) at another interval level."""
-    from bayesirl.report import ambiguity
-
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = load_posterior(run, summary)
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
-    report = ambiguity(posterior, level=args.level)
-    report.to_html(run.report)
-    summary.update(level=args.level, report=report.as_dict())
-    write_json(run.summary, summary)
-    if not args.quiet:
-        print(report.table())
+    write_report(run, posterior, summary, args.level, args.quiet)
     say(args, f"wrote {run.report} and {run.summary} at the {args.level:.0%} level")
     return 0
 
