@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import html
 import json
 import os
 import sys
 from pathlib import Path
 
 import bayesirl
-from bayesirl.files import write_json
+from bayesirl.files import write_json, write_text
 from bayesirl.io import RunFolder
 from bayesirl.io.runfolder import RUN_FORMAT, file_digest
 
@@ -89,13 +90,30 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
 
     report = ambiguity(posterior, level=level)
     report.to_html(run.report)
+    if not summary.get("complete"):
+        _mark_incomplete(run.report, summary)
     drop = ("note", "pid") if summary.get("complete") else ("pid",)
     summary = {k: v for k, v in summary.items() if k not in drop}
     summary.update(level=level, report=report.as_dict())
     write_json(run.summary, summary)
     if not quiet:
+        if not summary.get("complete"):
+            print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
     return summary
+
+
+INCOMPLETE = ("INTERRUPTED RUN: only {done} draws per chain of those requested; intervals and "
+              "diagnostics from an unfinished run can be too narrow or too optimistic")
+
+
+def _mark_incomplete(path: Path, summary: dict) -> None:
+    """A banner at the top of an interrupted run's report.html (the report does not know)."""
+    text = path.read_text(encoding="utf-8")
+    at = text.find(">", text.find("<body")) + 1 if "<body" in text else 0
+    banner = (f'<p style="border:2px solid #b00;padding:.5em;color:#b00">'
+              f"{html.escape(INCOMPLETE.format(done=summary.get('draws_done')))}</p>")
+    write_text(path, text[:at] + banner + text[at:])
 
 
 def _earlier_draws(run: RunFolder) -> int:

@@ -151,6 +151,8 @@ def test_fit_keeps_an_interrupted_run_and_resumes_it_with_a_stand_in_sampler(
                                                      "summary.json"]
     assert main(["report", str(run), "--quiet"]) == 0  # partial draws can be looked at
     assert "interrupted run" in capsys.readouterr().err
+    # The page itself says so (the report of a finished run, below, does not).
+    assert "INTERRUPTED RUN: only 10 draws per chain" in (run / "report.html").read_text()
     demos.write_text(demos.read_text() + "c,0,0,0,right\n")
     assert main(["fit", "--resume", str(run)]) == 2
     assert "changed since the run started" in capsys.readouterr().err
@@ -160,6 +162,7 @@ def test_fit_keeps_an_interrupted_run_and_resumes_it_with_a_stand_in_sampler(
     assert (summary["complete"], summary["draws_done"]) == (True, 60)
     assert sorted(p.name for p in run.iterdir()) == ["posterior.nc", "report.html",
                                                      "summary.json"]
+    assert "INTERRUPTED RUN" not in (run / "report.html").read_text()
     assert calls == [("checkpoint", False, 60), ("checkpoint", True, 60)]
     assert main(["fit", "--resume", str(run)]) == 2
     assert "already complete" in capsys.readouterr().err
