@@ -265,8 +265,9 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         acknowledge()
-        print(f"bayesirl {args.command}: interrupted before any result was saved; nothing was "
-              "written", file=sys.stderr)
+        done = ("nothing was written" if args.command in ("fit", "check") else
+                "each file is either written completely or left as it was")
+        print(f"bayesirl {args.command}: interrupted; {done}", file=sys.stderr)
         return 130
     except MemoryError:
         print(f"bayesirl {args.command}: error: not enough memory for this input; reduce "

@@ -18,7 +18,7 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.files import write_text
-from bayesirl.io.fields import read_text
+from bayesirl.io.fields import path_argument, read_text
 from bayesirl.model import Demonstrations
 
 CSV_SUFFIXES = (".csv",)
@@ -46,7 +46,10 @@ def read_demonstrations(path, problem) -> Demonstrations:
     -------
     Demonstrations
     """
-    path = Path(path)
+    path = path_argument(path)
+    if not hasattr(problem, "mdp") or not hasattr(problem, "action_index"):
+        raise InputError(f"problem: expected a Problem from read_problem; got "
+                         f"{type(problem).__name__}")
     text = read_text(path, "demonstration file")
     if not text.strip():
         raise InputError(f"{path}: the file is empty; expected demonstrations "

@@ -13,7 +13,7 @@ from pathlib import Path
 
 from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
-from bayesirl.io.fields import Table, load_toml
+from bayesirl.io.fields import Table, load_toml, path_argument
 from bayesirl.io.settings import prior_from, rationality_from, sampler_from
 from bayesirl.model import TabularMDP
 from bayesirl.resources import MAX_HORIZON, check_horizon
@@ -90,7 +90,7 @@ def read_problem(path) -> Problem:
     InputError
         Naming the file, the table and key, the bad value and what was expected.
     """
-    path = Path(path)
+    path = path_argument(path)
     top = Table(load_toml(path), path, "")
     top.only(TOP_KEYS)
     worlds = [w for w in WORLDS if w in top]

@@ -89,7 +89,21 @@ MODEL = [
      ["transitions: array of dtype complex128"]),
     ("start-strings", lambda: bi.TabularMDP(_ring_csr(), np.eye(2), start=["a", "b"]),
      ["start: array of dtype <U1"]),
+    ("read-problem-none", lambda: _io().read_problem(None),
+     ["path: expected a file name (str or Path); got None"]),
+    ("read-problem-bytes", lambda: _io().read_problem(b"p.toml"), ["path: expected a file"]),
+    ("read-problem-empty", lambda: _io().read_problem(""), ["path: expected a file"]),
+    ("read-demos-no-problem", lambda: _io().read_demonstrations("w.csv", None),
+     ["problem: expected a Problem from read_problem; got NoneType"]),
+    ("read-demos-path-number", lambda: _io().read_demonstrations(5, None),
+     ["path: expected a file name (str or Path); got 5"]),
 ]
+
+
+def _io():
+    import bayesirl.io
+
+    return bayesirl.io
 
 
 @pytest.mark.parametrize("case", MODEL, ids=[c[0] for c in MODEL])
