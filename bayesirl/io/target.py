@@ -17,6 +17,7 @@ from bayesirl.errors import InputError
 
 RUN_FORMAT = "bayesirl-run/1"
 PARTIAL = ".partial-"  # staging folders are named ".NAME.partial-XXXX" beside NAME
+MAX_NAME = 200  # bytes: NAME plus ".", ".partial-" and mkdtemp's 8 characters fit in 255
 
 
 def is_run_folder(path: Path) -> bool:
@@ -72,6 +73,10 @@ def check_target(target, replace: bool = False, inputs=()) -> None:
     if full.parent == full or _inside(cwd, full.resolve()):
         raise InputError(f"--out {text}: is the current folder or contains it; give a new "
                          "folder's name, e.g. --out run")
+    if len(full.name.encode()) > MAX_NAME:  # the staging folder's name adds ~20 bytes
+        raise InputError(f"--out {text[:40]}...: a folder name of {len(full.name.encode())} "
+                         f"bytes; at most {MAX_NAME} (file systems allow 255 with the hidden "
+                         "staging folder's suffix)")
     base = _existing_ancestor(full.parent)
     if not base.is_dir():
         raise InputError(f"--out {text}: {base} is a file, not a folder; choose another --out")

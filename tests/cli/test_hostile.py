@@ -39,6 +39,8 @@ OUTPUT = [
      ["notes.txt is a file, not a folder"]),
     ("out-deep-under-file", {"notes.txt": "mine"}, [*FIT[:3], "--out", "notes.txt/a/b"],
      ["notes.txt is a file, not a folder"]),
+    ("out-name-too-long", {}, [*FIT[:3], "--out", "r" * 250],
+     ["a folder name of 250 bytes; at most 200"]),
     ("out-in-proc", {}, [*FIT[:3], "--out", "/proc/bayesirl-run"],
      ["--out /proc/bayesirl-run: cannot create a folder in /proc"]),
     ("out-exists-no-force", {"run/thesis.tex": "years of work"}, FIT,
