@@ -23,10 +23,17 @@ CALLBACK = ctypes.CFUNCTYPE(None)
 
 def _lose_a_sigint() -> None:
     """Run a C callback during which SIGINT arrives (and is swallowed by ctypes)."""
-    def inside():
-        time.sleep(0.3)
+    sent = threading.Event()
 
-    threading.Timer(0.05, os.kill, (os.getpid(), signal.SIGINT)).start()
+    def send():
+        os.kill(os.getpid(), signal.SIGINT)
+        sent.set()
+
+    def inside():  # sends the signal and returns only once it is out, however loaded
+        threading.Thread(target=send).start()
+        sent.wait(30)
+        time.sleep(0.1)
+
     CALLBACK(inside)()
 
 
