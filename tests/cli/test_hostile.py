@@ -433,8 +433,7 @@ def test_hostile_input(case, tiny, capsys, monkeypatch):
     assert snapshot(folder) == before  # nothing written, changed or deleted
 
 
-@pytest.mark.parametrize("case", ["csr-index-huge", "features-1e308", "jsonl-nested-200000",
-                                  "npz-random-bytes"])
+@pytest.mark.parametrize("case", ["csr-index-huge", "features-1e308"])  # was a segfault, a hang
 def test_hostile_input_through_a_real_process(case, tiny):
     # No segmentation fault, hang or traceback in a real interpreter either.
     _, files, argv, fragments = next(c for c in CASES if c[0] == case)
