@@ -12,7 +12,7 @@ import traceback
 from pathlib import Path
 
 from bayesirl.commands.signals import acknowledge, stop_on_signals
-from bayesirl.errors import InputError
+from bayesirl.errors import InputError, SolverError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
@@ -263,6 +263,11 @@ def main(argv: list[str] | None = None) -> int:
             traceback.print_exc()
         print(f"bayesirl {args.command}: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except SolverError as err:  # numerics, not the input: exit 1, with what to change
+        if args.debug:
+            traceback.print_exc()
+        print(f"bayesirl {args.command}: solver error: {err}", file=sys.stderr)
+        return EXIT_INTERNAL
     except KeyboardInterrupt:
         acknowledge()
         done = ("nothing was written" if args.command in ("fit", "check") else

@@ -14,11 +14,12 @@ from pathlib import Path
 from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml, path_argument
-from bayesirl.io.settings import prior_from, rationality_from, sampler_from
+from bayesirl.io.settings import prior_from, rationality_from, sampler_from, solver_from
 from bayesirl.model import TabularMDP
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
-TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler"}
+TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
+            "solver"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -36,6 +37,7 @@ class Problem:
     pin : dict of pinned weights (needed when the rationality is sampled)
     demonstrator : "soft" or "optimal" (the Q the Boltzmann policy uses)
     sampler : keyword arguments for :func:`bayesirl.sample`
+    solver : keyword arguments for :class:`bayesirl.BoltzmannLikelihood` (numerical settings)
     source : the problem file
     blocked : states that demonstrations may never visit (blocked map cells)
     """
@@ -51,6 +53,7 @@ class Problem:
     title: str = ""
     world: str = "arrays"
     blocked: frozenset = field(default_factory=frozenset)
+    solver: dict = field(default_factory=dict)
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -135,4 +138,5 @@ def read_problem(path) -> Problem:
         rationality=rationality, pin=pin, demonstrator=demonstrator,
         sampler=sampler_from(top.table("sampler", {})), source=path,
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
+        solver=solver_from(top.table("solver", {})),
     )
