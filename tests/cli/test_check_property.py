@@ -44,7 +44,8 @@ numbers = st.one_of(
     st.integers(-3, 3), st.floats(-2, 2, allow_nan=False),
     st.sampled_from([0.0, 1e-300, 1e9, -1e7, 1e308, float("inf"), float("nan"), 2**62]))
 # Mostly sensible values, so that many examples get past the first check.
-values = st.one_of(st.sampled_from([0, 1, 1, -1, 0.5, 2.0, 3]), numbers)
+values = st.one_of(st.sampled_from([0, 1, 1, -1, 0.5, 2.0, 3]),
+                   st.sampled_from([0, 1, -1, 2.5]), numbers)
 small_ints = st.integers(-2, 12)
 names = st.sampled_from(["up", "right", "down", "left", "jump", "0", "1", "9", "-1", "", "x,y"])
 
@@ -72,7 +73,7 @@ def map_problem(draw) -> dict:
             parts = [p for p in (f"mud = {_toml_value(value)}", extra) if p]
             legend.append(f'"{sym}" = {{ {", ".join(parts)} }}')
     legend.append(f'"m" = {{ water = {_toml_value(draw(values))} }}')
-    discount = draw(st.sampled_from([0.9, 0.9, 0.5, 0.0, 1.0, -0.1, float("nan")]))
+    discount = draw(st.sampled_from([0.9, 0.9, 0.9, 0.5, 0.0, 1.0, -0.1, float("nan")]))
     model = [f"discount = {_toml_value(discount)}"]
     if draw(st.integers(0, 3)) == 0:
         model.append(f"horizon = {draw(st.sampled_from([1, 3, 20, 0, 10**18]))}")
