@@ -196,7 +196,8 @@ CODES: list[int] = []
 
 @settings(max_examples=150, deadline=None, derandomize=True, database=None,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
-@given(problem=st.one_of(map_problem(), arrays_problem(), raw_bytes),
+@given(problem=st.one_of(map_problem(), arrays_problem(), raw_bytes,
+                         st.just({"p.toml": TINY_TOML})),  # random demos on a valid map
        demos=st.one_of(st.none(), st.none(), csv_demos(), jsonl_demos()))
 def test_check_never_crashes_hangs_or_writes(problem, demos):
     run_check({**problem, **(demos or {})}, next(iter(demos)) if demos else None)
