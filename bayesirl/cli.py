@@ -11,6 +11,7 @@ import sys
 import traceback
 from pathlib import Path
 
+from bayesirl.commands.signals import acknowledge, stop_on_signals
 from bayesirl.errors import InputError, SolverError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
@@ -271,7 +272,8 @@ def main(argv: list[str] | None = None) -> int:
         return stop.code if isinstance(stop.code, int) else EXIT_BAD_INPUT
     args.argv = argv
     try:
-        return int(args.func(args) or 0)
+        with stop_on_signals():  # SIGTERM stops a command as Ctrl-C does
+            return int(args.func(args) or 0)
     except InputError as err:
         if args.debug:
             traceback.print_exc()
@@ -283,8 +285,15 @@ def main(argv: list[str] | None = None) -> int:
         print(f"bayesirl {args.command}: solver error: {err}", file=sys.stderr)
         return EXIT_INTERNAL
     except KeyboardInterrupt:
-        print(f"bayesirl {args.command}: interrupted; nothing was written", file=sys.stderr)
+        acknowledge()
+        done = ("nothing was written" if args.command in ("fit", "check") else
+                "each file is either written completely or left as it was")
+        print(f"bayesirl {args.command}: interrupted; {done}", file=sys.stderr)
         return 130
+    except MemoryError:
+        print(f"bayesirl {args.command}: error: not enough memory for this input; reduce "
+              "draws, chains or the problem's size", file=sys.stderr)
+        return EXIT_BAD_INPUT
     except Exception as err:  # anything else is our bug: say so, briefly
         if args.debug:
             traceback.print_exc()

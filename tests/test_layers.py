@@ -14,6 +14,7 @@ LAYERS = {
     "errors": 0,
     "files": 0,
     "threads": 0,
+    "resources": 0,
     "kernels": 1,
     "solver": 2,
     "model": 3,

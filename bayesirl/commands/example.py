@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 import shlex
+import shutil
+import tempfile
 from pathlib import Path
 
 from bayesirl.errors import InputError
+from bayesirl.files import atomic_target
+from bayesirl.io.target import check_target
 from bayesirl.scenarios.bundled import EXAMPLES
 
 
@@ -30,7 +34,8 @@ def example_command(args, run_fit) -> int:
     if (folder / "run").exists() and not args.force:
         raise InputError(f"{folder / 'run'}: already exists; add --force to replace it, or "
                          "choose another folder")
-    problem, demos = EXAMPLES[args.name].write(folder)
+    check_target(folder / "run", args.force)  # before any file is written
+    problem, demos = _write_example(EXAMPLES[args.name], folder)
     argv = ["fit", str(problem), str(demos), "--out", str(folder / "run")]
     if args.force:
         argv.append("--force")
@@ -41,3 +46,35 @@ def example_command(args, run_fit) -> int:
     if code == 0:
         print(f"report: {folder / 'run' / 'report.html'}")
     return code
+
+
+def _same(mine: Path, fresh: Path) -> bool:
+    if not mine.is_file():
+        return False
+    if fresh.suffix == ".npz":  # the archive's bytes carry timestamps; compare the arrays
+        import numpy as np
+
+        try:
+            with np.load(mine, allow_pickle=False) as a, np.load(fresh) as b:
+                return sorted(a.files) == sorted(b.files) and all(
+                    np.array_equal(a[k], b[k]) for k in a.files)
+        except (OSError, ValueError, EOFError):
+            return False
+    return mine.read_bytes() == fresh.read_bytes()
+
+
+def _write_example(example, folder: Path) -> tuple[Path, Path]:
+    """Write the example's files into ``folder``; a different file of that name is refused."""
+    with tempfile.TemporaryDirectory() as tmp:
+        problem, demos = example.write(Path(tmp))
+        fresh = sorted(Path(tmp).iterdir())
+        for path in fresh:
+            mine = folder / path.name
+            if mine.exists() and not _same(mine, path):
+                raise InputError(f"{mine}: already exists and is not the example's file; "
+                                 "choose another folder (nothing was written)")
+        folder.mkdir(parents=True, exist_ok=True)
+        for path in fresh:
+            with atomic_target(folder / path.name) as target:
+                shutil.copyfile(path, target)
+    return folder / problem.name, folder / demos.name

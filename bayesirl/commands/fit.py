@@ -3,41 +3,23 @@
 from __future__ import annotations
 
 import shlex
-import shutil
-import signal
 import sys
-from contextlib import contextmanager
 from pathlib import Path
 
 import bayesirl
 from bayesirl.commands import mass
-from bayesirl.commands.runs import inputs_record, say, write_results
+from bayesirl.commands.runs import inputs_record, save_draws, say, started_summary, write_report
+from bayesirl.commands.signals import acknowledge, held
 from bayesirl.errors import InputError
-from bayesirl.io import RunFolder, read_demonstrations, read_problem, staged_folder
-from bayesirl.io.runfolder import check_target, file_digest
+from bayesirl.files import write_json
+from bayesirl.io import RunFolder, read_demonstrations, read_problem
+from bayesirl.io.runfolder import Staging, check_target
 from bayesirl.likelihood import BoltzmannLikelihood
+from bayesirl.resources import check_sampling
 
 # The shell's convention for a process stopped by SIGINT (128 + 2).
 EXIT_INTERRUPTED = 130
 OVERRIDES = ("chains", "draws", "warmup", "seed")
-
-
-@contextmanager
-def sigterm_as_interrupt():
-    """SIGTERM stops the command like Ctrl-C outside sampling too (while it samples,
-    ``bayesirl.sample`` installs its own handler, which also stops its worker processes)."""
-    def handler(signum, frame):
-        raise KeyboardInterrupt
-
-    try:
-        previous = signal.signal(signal.SIGTERM, handler)
-    except ValueError:  # not the main thread: leave signals alone
-        yield
-        return
-    try:
-        yield
-    finally:
-        signal.signal(signal.SIGTERM, previous)
 
 
 def _load(problem_path, demos_path):
@@ -65,85 +47,116 @@ def fit_command(args) -> int:
         if given or args.force:
             raise InputError(f"fit --resume continues with the run's own settings; drop "
                              f"{', '.join(given + (['--force'] if args.force else []))}")
+        from bayesirl.commands.resume import resume_command
+
         return resume_command(args)
     if not (args.problem and args.demonstrations):
         raise InputError("fit: give a problem file and a demonstration file, e.g. "
                          "bayesirl fit park.toml walks.csv --out run")
-    check_target(args.out, args.force)  # before the slower reading and checking
-    problem, lik = _load(args.problem, args.demonstrations)
+    inputs = (args.problem, args.demonstrations)
+    check_target(args.out, args.force, inputs)  # before the slower reading and checking
+    problem, lik = _load(*inputs)
     settings = dict(problem.sampler)
     for key in OVERRIDES:
         if getattr(args, key, None) is not None:
             settings[key] = getattr(args, key)
+    check_sampling(settings["chains"], settings["draws"], settings["warmup"],
+                   problem.mdp.n_features + 1)
     settings, why = mass.choose(problem, lik, settings)  # a ridge: dense mass matrix
     if why:
         say(args, f"dense mass matrix: on, because {why}")
-    record = {**inputs_record(args.problem, args.demonstrations), "requested": settings,
+    record = {**inputs_record(*inputs), "requested": settings,
               "command": shlex.join(["bayesirl", *getattr(args, "argv", sys.argv[1:])])}
     say(args, f"{problem.mdp}; {lik.demos}; sampling {settings['chains']} chains x "
               f"{settings['draws']} draws")
-    with staged_folder(args.out, replace=args.force) as tmp:
-        code = _run(args, problem, lik, settings, record, RunFolder(tmp), resume=False)
-    _finish(args, Path(args.out), code)
-    return code
+    stage = Staging(args.out, replace=args.force, inputs=inputs)
+    return sample_into(args, stage, problem, lik, settings, record, resume=False)
 
 
-def _run(args, problem, lik, settings, record, run: RunFolder, resume: bool) -> int:
+def _sample(args, problem, lik, settings, run: RunFolder, resume: bool):
     kwargs = _sample_kwargs(problem, settings, args.quiet)
     if getattr(args, "scheduler", None) is not None:
         kwargs["cluster"] = args.scheduler  # chains as Dask tasks; no checkpoint there
     else:
         kwargs["checkpoint"] = run.checkpoint
         kwargs["resume"] = resume
-    with sigterm_as_interrupt():
-        try:
-            posterior = bayesirl.sample(lik, **kwargs)
-        except bayesirl.Interrupted as err:  # a KeyboardInterrupt subclass
-            write_results(run, err.posterior, record, complete=False, quiet=True)
-            return EXIT_INTERRUPTED
-    _remove(run.checkpoint)  # a finished run needs no sampler state
-    write_results(run, posterior, record, complete=True, level=args.level, quiet=args.quiet,
-                  action_names=problem.action_names)
+    return bayesirl.sample(lik, **kwargs)
+
+
+def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bool) -> int:
+    """Sample into the staging folder, move it into place, then write the report.
+
+    Whatever stops the run, what was sampled is kept: an interrupted run (or one killed
+    before it could save) keeps its checkpoint for ``fit --resume``; a finished run's draws
+    are saved and in place before the report is begun.
+    """
+    run, done = RunFolder(stage.path), {}
+    try:
+        if not resume:  # the record a resume needs, even after SIGKILL
+            write_json(run.summary, started_summary(record))
+        done["posterior"] = _sample(args, problem, lik, settings, run, resume)
+    except bayesirl.Interrupted as err:  # a KeyboardInterrupt subclass
+        acknowledge()
+        with held():
+            save_draws(run, err.posterior, record, complete=False)
+            stage.commit()
+        return _interrupted(stage.target)
+    except KeyboardInterrupt:  # a second Ctrl-C, or a signal just before/after sampling
+        done["signal"] = True
+        acknowledge()
+        if "posterior" not in done:
+            if not run.checkpoint.is_file():
+                stage.discard()
+                raise
+            with held():  # the last periodic checkpoint: resumable
+                save_draws(run, None, record, complete=False)
+                stage.commit()
+            return _interrupted(stage.target)
+    except BaseException:
+        stage.discard()
+        raise
+    try:
+        with held() as late:
+            summary = save_draws(run, done["posterior"], record, complete=True)
+            stage.commit()
+    except Exception:  # the finished checkpoint stays: a resume saves the draws at once
+        print(f"the finished sampler state is kept in {stage.path}; save it again with: "
+              f"bayesirl fit --resume {shlex.quote(str(stage.target))}", file=sys.stderr)
+        raise
+    if done.get("signal") or late:  # stopped as sampling ended: keep the draws, no report
+        _remove(RunFolder(stage.target).checkpoint)
+        return _report_skipped(RunFolder(stage.target))
+    return render(args, RunFolder(stage.target), done["posterior"], summary,
+                  problem.action_names)
+
+
+def render(args, out: RunFolder, posterior, summary: dict, action_names=None) -> int:
+    """Write the report of a finished run already in place; a signal leaves the draws."""
+    try:
+        _remove(out.checkpoint)  # a finished run needs no sampler state
+        write_report(out, posterior, summary, args.level, args.quiet,
+                     action_names=action_names)
+    except KeyboardInterrupt:
+        acknowledge()
+        return _report_skipped(out)
+    say(args, f"wrote {out.root}/posterior.nc, summary.json and report.html")
     return 0
 
 
+def _report_skipped(out: RunFolder) -> int:
+    where = shlex.quote(str(out.root))
+    print(f"interrupted while writing the report: sampling had finished and all the draws are "
+          f"saved in {out.posterior}; write the report with: bayesirl report {where}",
+          file=sys.stderr)
+    return EXIT_INTERRUPTED
+
+
 def _remove(path: Path) -> None:
-    if path.is_dir():
-        shutil.rmtree(path)
-    elif path.exists():
+    if path.exists():
         path.unlink()
 
 
-def _finish(args, out: Path, code: int) -> None:
-    if code == EXIT_INTERRUPTED:
-        print(f"interrupted: the draws so far are kept in {out} (marked incomplete); "
-              f"continue with: bayesirl fit --resume {shlex.quote(str(out))}", file=sys.stderr)
-    else:
-        say(args, f"wrote {out}/posterior.nc, summary.json and report.html")
-
-
-def resume_command(args) -> int:
-    """Continue an interrupted run folder to its requested number of draws."""
-    run = RunFolder(Path(args.resume))
-    summary = run.read_summary()
-    if summary.get("complete"):
-        raise InputError(f"{run.root}: the run is already complete; nothing to resume")
-    if not run.checkpoint.exists():
-        raise InputError(f"{run.checkpoint}: missing; the run cannot be resumed")
-    for key in ("problem", "demonstrations"):
-        path = Path(summary[key])
-        if not path.is_file():
-            raise InputError(f"{path}: the run's {key} file is gone; cannot resume")
-        if file_digest(path) != summary["inputs_sha256"][key]:
-            raise InputError(f"{path}: changed since the run started; resuming would mix "
-                             "two problems (start a new fit instead)")
-    problem, lik = _load(summary["problem"], summary["demonstrations"])
-    record = {k: summary[k] for k in ("problem", "demonstrations", "inputs_sha256",
-                                      "requested", "command")}
-    say(args, f"resuming {run.root}: {summary.get('draws_done', 0)} of "
-              f"{record['requested']['draws']} draws per chain done")
-    with staged_folder(run.root, replace=True, seed_from=run.root) as tmp:
-        code = _run(args, problem, lik, record["requested"], record, RunFolder(tmp),
-                    resume=True)
-    _finish(args, run.root, code)
-    return code
+def _interrupted(out: Path) -> int:
+    print(f"interrupted: the draws so far are kept in {out} (marked incomplete); "
+          f"continue with: bayesirl fit --resume {shlex.quote(str(out))}", file=sys.stderr)
+    return EXIT_INTERRUPTED

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import html
 import json
+import os
 import sys
 from pathlib import Path
 
 import bayesirl
-from bayesirl.files import write_json
+from bayesirl.files import write_json, write_text
 from bayesirl.io import RunFolder
 from bayesirl.io.runfolder import RUN_FORMAT, file_digest
 
@@ -48,6 +50,19 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     dict
         The summary written.
     """
+    summary = save_draws(run, posterior, record, complete)
+    if complete:
+        summary = write_report(run, posterior, summary, level, quiet,
+                               action_names=action_names)
+    return summary
+
+
+def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
+    """``posterior.nc`` and a ``summary.json`` without the report (written next, if complete).
+
+    A complete run whose summary has no ``report`` yet can be rendered by ``bayesirl report``
+    or ``bayesirl fit --resume``: the draws are all there.
+    """
     drawn = posterior is not None and posterior.n_draws > 0
     summary = {"format": RUN_FORMAT, "complete": bool(complete),
                "bayesirl_version": bayesirl.__version__, **record,
@@ -55,19 +70,57 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     if drawn:
         posterior.save(run.posterior)
     if complete:
-        from bayesirl.report import ambiguity
-
-        report = ambiguity(posterior, level=level, action_names=action_names)
-        report.to_html(run.report)
-        summary.update(level=level, report=report.as_dict())
-        if not quiet:
-            print(report.table())
+        summary["note"] = ("sampling finished; report.html is written next (if it is missing, "
+                           "write it with bayesirl report <this folder>)")
     else:
         summary["note"] = ("interrupted: the draws so far are in posterior.nc and the sampler "
                            "state in checkpoint; continue with bayesirl fit --resume "
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+def started_summary(record: dict) -> dict:
+    """The summary of a run that has just started (a resume after a kill needs the record)."""
+    return {"format": RUN_FORMAT, "complete": False, "bayesirl_version": bayesirl.__version__,
+            **record, "draws_done": 0, "pid": os.getpid(),
+            "note": "sampling: if this run was killed, continue it with bayesirl fit --resume"}
+
+
+def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAULT_LEVEL,
+                 quiet: bool = False, **options) -> dict:
+    """``report.html`` and the report's numbers in ``summary.json`` (draws already saved).
+
+    ``options`` go to :func:`bayesirl.report.ambiguity` (``tolerance``, ``states``,
+    ``suggestions``, ``action_names``)."""
+    from bayesirl.report import ambiguity
+
+    report = ambiguity(posterior, level=level, **options)
+    report.to_html(run.report)
+    if not summary.get("complete"):
+        _mark_incomplete(run.report, summary)
+    drop = ("note", "pid") if summary.get("complete") else ("pid",)
+    summary = {k: v for k, v in summary.items() if k not in drop}
+    summary.update(level=level, report=report.as_dict())
+    write_json(run.summary, summary)
+    if not quiet:
+        if not summary.get("complete"):
+            print(INCOMPLETE.format(done=summary.get("draws_done")))
+        print(report.table())
+    return summary
+
+
+INCOMPLETE = ("INTERRUPTED RUN: only {done} draws per chain of those requested; intervals and "
+              "diagnostics from an unfinished run can be too narrow or too optimistic")
+
+
+def _mark_incomplete(path: Path, summary: dict) -> None:
+    """A banner at the top of an interrupted run's report.html (the report does not know)."""
+    text = path.read_text(encoding="utf-8")
+    at = text.find(">", text.find("<body")) + 1 if "<body" in text else 0
+    banner = (f'<p style="border:2px solid #b00;padding:.5em;color:#b00">'
+              f"{html.escape(INCOMPLETE.format(done=summary.get('draws_done')))}</p>")
+    write_text(path, text[:at] + banner + text[at:])
 
 
 def _earlier_draws(run: RunFolder) -> int:

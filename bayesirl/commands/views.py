@@ -7,13 +7,15 @@ import json
 import sys
 from pathlib import Path
 
-from bayesirl.commands.runs import say
+from bayesirl.commands.runs import say, write_report
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
+from bayesirl.resources import MAX_BUDGET
 
 
-def _load_posterior(run: RunFolder, summary: dict):
+def load_posterior(run: RunFolder, summary: dict | None = None):
+    """The run's posterior, or an :class:`InputError` naming the file."""
     from bayesirl.posterior import Posterior
 
     if not run.posterior.is_file():
@@ -22,7 +24,7 @@ def _load_posterior(run: RunFolder, summary: dict):
         return Posterior.load(run.posterior)
     except InputError:
         raise
-    except (OSError, ValueError, KeyError) as err:
+    except (OSError, ValueError, KeyError, TypeError, IndexError, AttributeError) as err:
         raise InputError(f"{run.posterior}: not a readable posterior file "
                          f"({type(err).__name__}: {err})") from None
 
@@ -42,18 +44,14 @@ def parse_states(text: str | None, n_states: int) -> list[int]:
 
 
 def render_report(run: RunFolder, summary: dict, posterior, settings: dict,
-                  suggestions=None):
+                  suggestions=None, quiet: bool = False) -> dict:
     """Write the run's report.html and the report in summary.json with ``settings``
-    (``level``, ``tolerance``, ``states``), returning the report."""
-    from bayesirl.report import ambiguity
-
-    report = ambiguity(posterior, level=settings["level"], tolerance=settings.get("tolerance"),
-                       states=settings.get("states") or (), suggestions=suggestions,
-                       action_names=_action_names(summary, posterior))
-    report.to_html(run.report)
-    summary.update(level=settings["level"], report_settings=settings, report=report.as_dict())
-    write_json(run.summary, summary)
-    return report
+    (``level``, ``tolerance``, ``states``); returns the summary written."""
+    summary = {**summary, "report_settings": settings}
+    return write_report(run, posterior, summary, settings["level"], quiet,
+                        tolerance=settings.get("tolerance"),
+                        states=settings.get("states") or (), suggestions=suggestions,
+                        action_names=_action_names(summary, posterior))
 
 
 def _action_names(summary: dict, posterior):
@@ -83,18 +81,16 @@ def report_command(args) -> int:
 
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
+    posterior = load_posterior(run, summary)
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
     tolerance = check_tolerance(getattr(args, "tolerance", None))
-    posterior = _load_posterior(run, summary)
     n_states = posterior.model.likelihood.mdp.n_states
     settings = {"level": args.level, "tolerance": tolerance,
                 "states": parse_states(getattr(args, "states", None), n_states)}
     extra = _stored_suggestions(run) if getattr(args, "suggestions", False) else None
-    report = render_report(run, summary, posterior, settings, extra)
-    if not args.quiet:
-        print(report.table())
+    render_report(run, summary, posterior, settings, extra, args.quiet)
     say(args, f"wrote {run.report} and {run.summary} at the {args.level:.0%} level")
     return 0
 
@@ -127,9 +123,12 @@ def suggest_command(args) -> int:
         from bayesirl.posterior.cluster import check_arguments
 
         check_arguments(scheduler, None, False, None)
+    if args.budget > MAX_BUDGET:  # each pick re-scores every candidate
+        raise InputError(f"--budget: {args.budget} is more than the limit of {MAX_BUDGET} "
+                         "demonstrations chosen together")
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
-    posterior = _load_posterior(run, summary)
+    posterior = load_posterior(run, summary)
     if not posterior.diagnostics.ok:
         print("warning: the run's sampler diagnostics failed "
               f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
@@ -151,7 +150,7 @@ def suggest_command(args) -> int:
     say(args, f"wrote {run.suggestions}")
     if getattr(args, "report", False):
         settings = summary.get("report_settings") or {"level": summary.get("level", 0.9)}
-        render_report(run, summary, posterior, settings, records)
+        render_report(run, summary, posterior, settings, records, quiet=True)
         say(args, f"added the suggestions to {run.report}")
     return 0
 

@@ -15,6 +15,7 @@ import scipy.sparse as sp
 from bayesirl.errors import InputError
 from bayesirl.io.fields import Table, read_text
 from bayesirl.io.grid import grid_arrays, parse_map
+from bayesirl.model.validate import csr_arrays
 
 # Action names of gymnasium's toy-text environments (from their documentation).
 GYM_ACTIONS = {
@@ -49,18 +50,35 @@ def from_map(table: Table) -> World:
 def read_npz(path: Path) -> dict[str, np.ndarray]:
     """All arrays of an ``.npz`` file (no pickled objects)."""
     try:
-        with np.load(path, allow_pickle=False) as data:
-            return {k: data[k] for k in data.files}
+        with open(path, "rb") as fh:
+            magic = fh.read(4)
     except FileNotFoundError:
         raise InputError(f"{path}: no such file") from None
-    except (zipfile.BadZipFile, OSError, EOFError, ValueError) as err:
+    except OSError as err:
+        raise InputError(f"{path}: cannot be read ({err.strerror or err})") from None
+    if magic != b"PK\x03\x04":  # every .npz is a zip archive
+        raise InputError(f"{path}: not an .npz archive (numpy.savez writes a zip file of "
+                         "arrays; this file is something else)")
+    try:
+        with np.load(path, allow_pickle=False) as data:
+            return {k: data[k] for k in data.files}
+    except ValueError as err:
+        if "pickle" in str(err):  # object arrays: never unpickled, whatever numpy suggests
+            raise InputError(f"{path}: holds arrays of Python objects, which are never "
+                             "loaded (they could run code); store numeric arrays") from None
+        raise InputError(f"{path}: not a readable .npz archive of numeric arrays ({err})") from None
+    except (zipfile.BadZipFile, OSError, EOFError, KeyError, RuntimeError) as err:
         raise InputError(f"{path}: not a readable .npz archive of numeric arrays ({err})") from None
 
 
 def read_features_csv(path: Path) -> tuple[np.ndarray, list[str]]:
     """Features from a CSV: a header of feature names, then one row of numbers per state."""
     text = read_text(path, "features CSV file")
-    rows = list(csv.reader(io.StringIO(text)))
+    reader = csv.reader(io.StringIO(text))
+    try:
+        rows = list(reader)
+    except csv.Error as err:
+        raise InputError(f"{path} line {reader.line_num}: not readable as CSV ({err})") from None
     rows = [r for r in rows if any(x.strip() for x in r)]
     if not rows:
         raise InputError(f"{path}: the file is empty; expected a header of feature names "
@@ -120,32 +138,60 @@ def from_arrays(table: Table) -> World:
     if "grid" in table:
         g = table.data["grid"]
         if not (isinstance(g, list) and len(g) == 2 and all(
-                isinstance(x, int) and not isinstance(x, bool) for x in g)):
-            raise table.fail("grid", g, "[rows, cols] (two integers)")
+                isinstance(x, int) and not isinstance(x, bool) and x > 0 for x in g)):
+            raise table.fail("grid", g, "[rows, cols] (two positive integers)")
+        n_s = _n_states(transitions)
+        if g[0] * g[1] != n_s:
+            raise table.fail("grid", g, f"rows x cols equal to the {n_s} states of {npz_path}")
         grid = (g[0], g[1])
     origin = ", ".join(str(p) for p in (npz_path, table.path("features_csv", None)) if p)
     return World(transitions, features, names, data.get("start"), actions, grid,
                  origin=f"(from {origin})")
 
 
+def _n_states(transitions) -> int:
+    return int(transitions.shape[1] if sp.issparse(transitions) else transitions.shape[-1])
+
+
 def _transitions(data: dict, path: Path):
+    sparse = [k for k in (*SPARSE_KEYS, "transitions_n_states") if k in data]
     if "transitions" in data:
+        if sparse:
+            raise InputError(f"{path}: holds both 'transitions' (dense) and {sparse[0]!r} "
+                             "(sparse); give the transitions one way only")
         t = data["transitions"]
         if t.dtype.kind not in "biuf":
             raise InputError(f"{path}: 'transitions' has dtype {t.dtype}; expected numbers")
         return t
     if all(k in data for k in SPARSE_KEYS):
-        indptr = data["transitions_indptr"]
-        n_s = int(data["transitions_n_states"]) if "transitions_n_states" in data else None
-        if n_s is None:
-            raise InputError(f"{path}: sparse transitions need 'transitions_n_states' too")
-        try:
-            return sp.csr_matrix((data["transitions_data"], data["transitions_indices"],
-                                  indptr), shape=(indptr.shape[0] - 1, n_s))
-        except (ValueError, TypeError) as err:
-            raise InputError(f"{path}: sparse transitions are inconsistent ({err})") from None
+        return _sparse(data, path)
     raise InputError(f"{path}: no array 'transitions' (S, A, S), nor the sparse arrays "
                      f"{', '.join(SPARSE_KEYS)}")
+
+
+def _sparse(data: dict, path: Path) -> sp.csr_matrix:
+    """The CSR transitions, every array checked before scipy or a kernel reads through it."""
+    n_s = data.get("transitions_n_states")
+    if n_s is None:
+        raise InputError(f"{path}: sparse transitions need 'transitions_n_states' too")
+    if n_s.shape != () or n_s.dtype.kind not in "iu" or int(n_s) < 1:
+        raise InputError(f"{path}: 'transitions_n_states' = {n_s.tolist()!r}; expected one "
+                         "positive integer")
+    n_s = int(n_s)
+    arrays = [data[k] for k in SPARSE_KEYS]
+    if arrays[0].dtype == np.float16:  # scipy.sparse has no half precision
+        raise InputError(f"{path}: 'transitions_data' has dtype float16; store float32 or "
+                         "float64 probabilities")
+    try:
+        csr_arrays(*arrays, n_s)
+    except InputError as err:
+        raise InputError(f"{path}: {err}") from None
+    indptr = arrays[2]
+    if (indptr.size - 1) % n_s or indptr.size == 1:
+        raise InputError(f"{path}: 'transitions_indptr' has {indptr.size} entries, so "
+                         f"{indptr.size - 1} rows; expected states x actions = {n_s} x A rows")
+    return sp.csr_matrix((arrays[0], arrays[1].astype(np.int64), indptr.astype(np.int64)),
+                         shape=(indptr.size - 1, n_s))
 
 
 def from_gym(table: Table) -> World:

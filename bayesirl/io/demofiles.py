@@ -18,7 +18,7 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.files import write_text
-from bayesirl.io.fields import read_text
+from bayesirl.io.fields import path_argument, read_text
 from bayesirl.model import Demonstrations
 
 CSV_SUFFIXES = (".csv",)
@@ -46,7 +46,10 @@ def read_demonstrations(path, problem) -> Demonstrations:
     -------
     Demonstrations
     """
-    path = Path(path)
+    path = path_argument(path)
+    if not hasattr(problem, "mdp") or not hasattr(problem, "action_index"):
+        raise InputError(f"problem: expected a Problem from read_problem; got "
+                         f"{type(problem).__name__}")
     text = read_text(path, "demonstration file")
     if not text.strip():
         raise InputError(f"{path}: the file is empty; expected demonstrations "
@@ -127,6 +130,13 @@ def _check_episode(path, ep: _Episode, problem) -> None:
 
 def _read_csv(path: Path, text: str, problem) -> list[_Episode]:
     reader = csv.reader(io.StringIO(text))
+    try:
+        return _csv_rows(path, reader, problem)
+    except csv.Error as err:
+        raise InputError(f"{path} line {reader.line_num}: not readable as CSV ({err})") from None
+
+
+def _csv_rows(path: Path, reader, problem) -> list[_Episode]:
     header = [h.strip().lower() for h in next(reader)]
     base = {"episode", "step", "action"}
     layouts = (base | {"state"}, base | {"row", "col"})
@@ -180,6 +190,9 @@ def _read_jsonl(path: Path, text: str, problem) -> list[_Episode]:
         except json.JSONDecodeError as err:
             raise InputError(f"{path} line {line}: not valid JSON ({err.msg} at column "
                              f"{err.colno})") from None
+        except RecursionError:
+            raise InputError(f"{path} line {line}: JSON nested too deeply to be an "
+                             "episode") from None
         ep = _jsonl_episode(path, line, obj, problem, len(episodes))
         if ep.name in names:
             raise InputError(f"{path} line {line}: episode {ep.name!r} appears more than once")
@@ -196,7 +209,11 @@ def _jsonl_episode(path, line, obj, problem, k) -> _Episode:
     if extra or ("states" in obj) == ("cells" in obj) or "actions" not in obj:
         raise InputError(f"{path} line {line}: keys {sorted(obj)}; expected episode (optional),"
                          " actions and exactly one of states or cells")
-    ep = _Episode(str(obj.get("episode", k)))
+    name = obj.get("episode", k)
+    if isinstance(name, bool) or not isinstance(name, str | int):
+        raise InputError(f"{path} line {line}: episode id {name!r} is not a string or a "
+                         "whole number")
+    ep = _Episode(str(name))
     seq_key = "states" if "states" in obj else "cells"
     for key in (seq_key, "actions"):
         if not isinstance(obj[key], list):
@@ -206,6 +223,8 @@ def _jsonl_episode(path, line, obj, problem, k) -> _Episode:
             if not (isinstance(x, list) and len(x) == 2):
                 raise InputError(f"{path} line {line}: cell {x!r} is not a [row, col] pair")
             ep.states.append(_state(path, line, problem, row=x[0], col=x[1]))
+        elif x is None:  # not "no state given", which means row/col to _state
+            raise InputError(f"{path} line {line}: state None is not a whole number")
         else:
             ep.states.append(_state(path, line, problem, x))
     ep.actions = [_action(path, line, problem, a) for a in obj["actions"]]

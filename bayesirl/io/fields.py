@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -14,6 +15,13 @@ else:  # pragma: no cover - the backport has the same API
     import tomli as tomllib
 
 MISSING = object()
+
+
+def path_argument(path, name: str = "path") -> Path:
+    """``path`` as a Path; anything but a non-empty str or os.PathLike is an InputError."""
+    if isinstance(path, bytes) or not isinstance(path, str | os.PathLike) or not str(path):
+        raise InputError(f"{name}: expected a file name (str or Path); got {path!r}")
+    return Path(path)
 
 
 def read_text(path: Path, what: str = "file") -> str:
@@ -48,6 +56,9 @@ def load_toml(path: Path) -> dict:
     except tomllib.TOMLDecodeError as err:
         hint = "; the file seems truncated" if "end of document" in str(err) else ""
         raise InputError(f"{path}: not valid TOML: {err}{hint}") from None
+    except RecursionError:
+        raise InputError(f"{path}: arrays or tables nested too deeply to be a problem "
+                         "file") from None
 
 
 class Table:

@@ -73,6 +73,9 @@ def parse_map(table: Table) -> Grid:
                 raise InputError(
                     f"{table.where('cells')}: row {i}, column {j}: symbol {ch!r} is not in "
                     f"[{table.name}.legend] (known symbols: {' '.join(sorted(legend))})")
+    if all(legend[ch]["blocked"] for line in rows for ch in line):
+        raise InputError(f"{table.where('cells')}: every cell of the map is blocked; "
+                         "demonstrations need at least one open cell")
     return Grid(rows, features, legend, moves, slip)
 
 

@@ -13,9 +13,10 @@ from pathlib import Path
 
 from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
-from bayesirl.io.fields import Table, load_toml
+from bayesirl.io.fields import Table, load_toml, path_argument
 from bayesirl.io.settings import prior_from, rationality_from, sampler_from, solver_from
 from bayesirl.model import TabularMDP
+from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
             "solver"}
@@ -92,7 +93,7 @@ def read_problem(path) -> Problem:
     InputError
         Naming the file, the table and key, the bad value and what was expected.
     """
-    path = Path(path)
+    path = path_argument(path)
     top = Table(load_toml(path), path, "")
     top.only(TOP_KEYS)
     worlds = [w for w in WORLDS if w in top]
@@ -104,6 +105,9 @@ def read_problem(path) -> Problem:
     model = top.table("model", {})
     model.only({"discount", "horizon", "demonstrator"})
     horizon = model.integer("horizon", None, low=1) if "horizon" in model else None
+    if horizon is not None and horizon > MAX_HORIZON:
+        raise model.fail("horizon", horizon, f"an integer <= {MAX_HORIZON} (for long tasks "
+                         "use an infinite horizon with a discount)")
     if horizon is None:
         discount = model.number("discount", 0.95, low=0.0, high=1.0, high_open=True)
     else:
@@ -119,6 +123,10 @@ def read_problem(path) -> Problem:
     except InputError as err:
         origin = f" {parts.origin}" if parts.origin else ""
         raise InputError(f"{path}: [{world}]{origin} {err}") from None
+    try:
+        check_horizon(mdp.horizon, mdp.n_states, mdp.n_actions)
+    except InputError as err:
+        raise InputError(f"{path}: [model] {err}") from None
     names = tuple(parts.action_names) if parts.action_names else None
     if names is not None and len(names) != mdp.n_actions:
         raise InputError(f"{path}: [{world}] actions: {len(names)} names for "

@@ -19,8 +19,11 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from bayesirl.errors import InputError
+from bayesirl.io.target import RUN_FORMAT, check_target
 
-RUN_FORMAT = "bayesirl-run/1"
+__all__ = ["RUN_FORMAT", "RunFolder", "Staging", "check_target", "file_digest",
+           "staged_folder"]
+
 DIR_MODE = 0o755  # mkdtemp makes 0700 folders; runs are meant to be shared
 
 
@@ -66,6 +69,10 @@ class RunFolder:
                              "(made by bayesirl fit)") from None
         except (json.JSONDecodeError, UnicodeDecodeError) as err:
             raise InputError(f"{self.summary}: not valid JSON ({err})") from None
+        except RecursionError:
+            raise InputError(f"{self.summary}: nested too deeply to be a run summary") from None
+        except OSError as err:
+            raise InputError(f"{self.summary}: cannot be read ({err.strerror or err})") from None
         if not isinstance(data, dict) or data.get("format") != RUN_FORMAT:
             got = data.get("format") if isinstance(data, dict) else None
             raise InputError(f"{self.summary}: format {got!r}; expected {RUN_FORMAT!r}")
@@ -81,46 +88,71 @@ def file_digest(path) -> str:
     return h.hexdigest()
 
 
-def check_target(target, replace: bool = False) -> None:
-    """An existing ``target`` is an :class:`InputError` unless it may be replaced."""
-    if Path(target).exists() and not replace:
-        raise InputError(f"{target}: already exists; choose another --out, add --force to "
-                         "replace it, or --resume it if it is an interrupted run")
-
-
-@contextmanager
-def staged_folder(target, replace: bool = False, seed_from=None) -> Iterator[Path]:
-    """Yield a fresh temporary sibling of ``target``; on success it becomes ``target``.
+class Staging:
+    """A fresh hidden sibling ``.NAME.partial-XXXX`` of ``target`` that becomes ``target``.
 
     Parameters
     ----------
     target : str or Path
         The folder to create.
     replace : bool
-        Replace an existing ``target`` (it is moved aside first and removed only after the new
-        folder is in place). Without it an existing ``target`` is an :class:`InputError`.
+        Replace an existing ``target`` (it must be a run folder: see :func:`check_target`;
+        it is moved aside first and removed only after the new folder is in place).
     seed_from : Path, optional
         Copy this folder's files into the staging folder first (for a resumed run).
-
-    On an exception the staging folder is removed and ``target`` is left as it was.
+    inputs : iterable of paths
+        The run's input files, which must not lie inside a ``target`` to be replaced.
     """
-    target = Path(target)
-    check_target(target, replace)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(dir=target.parent, prefix=f".{target.name}.partial-"))
+
+    def __init__(self, target, replace: bool = False, seed_from=None, inputs=()) -> None:
+        self.target = Path(target)
+        check_target(self.target, replace, inputs)
+        try:
+            self.target.parent.mkdir(parents=True, exist_ok=True)
+            self.path = Path(tempfile.mkdtemp(dir=self.target.parent,
+                                              prefix=f".{self.target.name}.partial-"))
+        except OSError as err:
+            raise InputError(f"--out {self.target}: cannot create it "
+                             f"({err.strerror or err})") from None
+        try:
+            if seed_from is not None:
+                shutil.copytree(seed_from, self.path, dirs_exist_ok=True)
+        except BaseException:
+            self.discard()
+            raise
+
+    def commit(self) -> None:
+        """Rename the staging folder to ``target`` (replacing the old one)."""
+        os.chmod(self.path, DIR_MODE)
+        try:
+            _swap_into_place(self.path, self.target)
+        except OSError as err:  # the results stay where they are: tell the user where
+            raise InputError(f"{self.target}: cannot be put in place ({err.strerror or err});"
+                             f" the run is kept in {self.path}") from None
+
+    def discard(self) -> None:
+        """Remove the staging folder."""
+        shutil.rmtree(self.path, ignore_errors=True)
+
+
+@contextmanager
+def staged_folder(target, replace: bool = False, seed_from=None) -> Iterator[Path]:
+    """Yield a fresh temporary sibling of ``target``; on success it becomes ``target``.
+
+    See :class:`Staging`. On an exception the staging folder is removed and ``target`` is
+    left as it was.
+    """
+    stage = Staging(target, replace, seed_from)
     try:
-        if seed_from is not None:
-            shutil.copytree(seed_from, tmp, dirs_exist_ok=True)
-        yield tmp
-        os.chmod(tmp, DIR_MODE)
-        _swap_into_place(tmp, target)
+        yield stage.path
     except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
+        stage.discard()
         raise
+    stage.commit()
 
 
 def _swap_into_place(tmp: Path, target: Path) -> None:
-    if not target.exists():
+    if not os.path.lexists(target):
         os.replace(tmp, target)
         return
     old = Path(tempfile.mkdtemp(dir=target.parent, prefix=f".{target.name}.old-"))

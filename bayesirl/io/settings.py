@@ -79,6 +79,10 @@ def rationality_from(table: Table, features: list[str]) -> tuple[object, dict]:
                           table.number("log_sd", 1.0, low=0.0, low_open=True))
         return prior, pin
     value = table.number("value", 1.0, low=0.0, low_open=True)
+    if pin:
+        raise InputError(f"{table.where('pin')}: pinning a weight goes with a sampled "
+                         "rationality (log_mean/log_sd); with a fixed rationality the "
+                         "weights' scale is already set, so drop pin")
     return value, pin
 
 

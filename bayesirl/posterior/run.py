@@ -22,6 +22,7 @@ from bayesirl.posterior.model import PosteriorModel
 from bayesirl.posterior.parallel import run_parallel
 from bayesirl.posterior.partial import Book, finish
 from bayesirl.posterior.progress import ChainProgress
+from bayesirl.resources import check_sampling
 from bayesirl.threads import one_blas_thread
 
 # Seconds between checkpoint writes (and between state reports from workers).
@@ -29,12 +30,40 @@ CHECKPOINT_EVERY = 2.0
 
 __all__ = ["sample"]
 
-def _check(chains, draws, warmup, method) -> None:
-    for name, v, low in (("chains", chains, 1), ("draws", draws, 1), ("warmup", warmup, 0)):
-        if int(v) != v or v < low:
-            raise InputError(f"{name}: expected an integer >= {low}; got {v!r}")
+def _whole(name: str, v, low: int) -> int:
+    """An integer argument (a whole float such as 1e3 is accepted), else InputError."""
+    ok = isinstance(v, int | np.integer) and not isinstance(v, bool | np.bool_)
+    if isinstance(v, float | np.floating) and np.isfinite(v) and float(v).is_integer():
+        ok = True
+    if not ok or v < low:
+        raise InputError(f"{name}: expected an integer >= {low}; got {v!r}")
+    return int(v)
+
+
+def _check(likelihood, prior, chains, draws, warmup, method, seed, processes, max_depth,
+           target_accept) -> None:
+    if likelihood is None or not hasattr(likelihood, "mdp") or not hasattr(likelihood,
+                                                                            "evaluate"):
+        raise InputError(f"likelihood: expected a BoltzmannLikelihood; got "
+                         f"{type(likelihood).__name__}")
+    if prior is not None and not all(hasattr(prior, m) for m in ("params", "log_density")):
+        raise InputError(f"prior: expected a prior object such as bayesirl.Normal(0, 5) or "
+                         f"None; got {prior!r}")
+    n = {k: _whole(k, v, low) for k, v, low in (("chains", chains, 1), ("draws", draws, 1),
+                                                 ("warmup", warmup, 0), ("seed", seed, 0),
+                                                 ("max_depth", max_depth, 1))}
+    if processes is not None:
+        _whole("processes", processes, 1)
     if method not in ("nuts", "random-walk"):
         raise InputError(f"method: expected 'nuts' or 'random-walk'; got {method!r}")
+    if target_accept is not None:
+        ok = isinstance(target_accept, int | float | np.floating) and not isinstance(
+            target_accept, bool)
+        if not ok or not 0.0 < float(target_accept) < 1.0:
+            raise InputError(f"target_accept: expected a number in (0, 1) or None; got "
+                             f"{target_accept!r}")
+    n_params = len(likelihood.mdp.feature_names) + 1  # weights and perhaps the rationality
+    check_sampling(n["chains"], n["draws"], n["warmup"], n_params)
 
 
 def sample(
@@ -115,7 +144,9 @@ def sample(
     InputError
         Bad arguments, or a checkpoint that is missing or belongs to another run.
     """
-    _check(chains, draws, warmup, method)
+    _check(likelihood, prior, chains, draws, warmup, method, seed, processes, max_depth,
+           target_accept)
+    chains, draws, warmup, seed = int(chains), int(draws), int(warmup), int(seed)
     if cluster is not None:
         dask_cluster.check_arguments(cluster, checkpoint, resume, processes)
     if resume and checkpoint is None:

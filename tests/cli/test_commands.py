@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shutil
 
 import numpy as np
 import pytest
@@ -79,22 +80,40 @@ def test_failure_while_writing_leaves_no_folder_and_keeps_the_old_run(tiny, monk
         (run.root / "posterior.nc").write_text("half")
         raise RuntimeError("disk full")
 
-    monkeypatch.setattr(fit_mod, "write_results", broken)
+    real = fit_mod.save_draws
+    monkeypatch.setattr(fit_mod, "save_draws", broken)
     assert _fit(tiny) == 1
-    assert "internal error: RuntimeError: disk full" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "internal error: RuntimeError: disk full" in err
+    assert "finished sampler state is kept in" in err
     folder = tiny[0].parent
-    assert not (folder / "run").exists() and not list(folder.glob(".run*"))
-    (folder / "run").mkdir()
-    (folder / "run" / "old.txt").write_text("earlier run")
+    # Sampling had finished: its checkpoint is kept (hidden), and a resume saves the draws.
+    kept = list(folder.glob(".run.partial-*"))
+    assert not (folder / "run").exists() and len(kept) == 1
+    assert (kept[0] / "checkpoint").is_file()
+    monkeypatch.setattr(fit_mod, "save_draws", real)
+    assert main(["--quiet", "fit", "--resume", str(folder / "run")]) == 0
+    assert json.loads((folder / "run" / "summary.json").read_text())["complete"] is True
+    assert not list(folder.glob(".run*"))
+    shutil.rmtree(folder / "run")
+    monkeypatch.setattr(fit_mod, "save_draws", broken)
+    _old_run(folder / "run")
     assert _fit(tiny, "run", "--force") == 1
     assert (folder / "run" / "old.txt").read_text() == "earlier run"
-    assert sorted(p.name for p in folder.iterdir()) == ["run", "tiny.toml", "walks.csv"]
+    assert sorted(p.name for p in folder.iterdir() if not p.name.startswith(".run.partial-")) \
+        == ["run", "tiny.toml", "walks.csv"]
+
+
+def _old_run(path) -> None:
+    """A folder that is recognisably a run folder (its summary's format tag) plus a file."""
+    path.mkdir()
+    (path / "summary.json").write_text('{"format": "bayesirl-run/1", "complete": true}')
+    (path / "old.txt").write_text("earlier run")
 
 
 def test_force_replaces_a_run(tiny):
     folder = tiny[0].parent
-    (folder / "run").mkdir()
-    (folder / "run" / "old.txt").write_text("earlier run")
+    _old_run(folder / "run")
     assert _fit(tiny, "run", "--force") == 0
     assert sorted(p.name for p in (folder / "run").iterdir()) == [
         "posterior.nc", "report.html", "summary.json"]
@@ -240,3 +259,26 @@ def test_machine_example_in_process(tmp_path, capsys):
         # A 90% interval misses the simulated truth 10% of the time; a 99.9% band (mean
         # +- 3.3 sd) missing it would point to a bug, not bad luck.
         assert abs(row["mean"] - truth[row["feature"]]) < 3.3 * row["sd"], row
+
+
+def test_resume_prefers_a_newer_checkpoint_left_by_a_killed_resume(tiny, monkeypatch, capsys):
+    import os
+
+    from bayesirl.posterior import chains
+    from bayesirl.posterior.interrupt import StopHook
+
+    folder = tiny[0].parent
+    monkeypatch.setattr(chains, "TEST_STOP", StopHook(chain=0, iteration=70))
+    assert _fit(tiny, "run", "--chains", "1") == 130  # interrupted after some draws
+    monkeypatch.setattr(chains, "TEST_STOP", None)
+    run = folder / "run"
+    assert json.loads((run / "summary.json").read_text())["complete"] is False
+    # What a resume killed outright leaves: a hidden copy with a newer checkpoint.
+    kept = folder / ".run.partial-killed"
+    shutil.copytree(run, kept)
+    later = (run / "checkpoint").stat().st_mtime + 10
+    os.utime(kept / "checkpoint", (later, later))
+    capsys.readouterr()
+    assert main(["fit", "--resume", str(run)]) == 0
+    assert f"resuming from {kept}" in capsys.readouterr().err
+    assert not kept.exists() and json.loads((run / "summary.json").read_text())["complete"]

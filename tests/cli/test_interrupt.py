@@ -42,10 +42,17 @@ def _start_fit(problem, demos, out) -> subprocess.Popen:
         start_new_session=True)  # its own process group, like a job in a terminal
 
 
-def _interrupt(proc: subprocess.Popen, signum: int, after: float) -> tuple[int, float, str]:
-    """Wait until sampling has begun, send ``signum``, return (code, seconds to stop, stderr)."""
+def _interrupt(proc: subprocess.Popen, signum: int, after: float,
+               folder=None) -> tuple[int, float, str]:
+    """Wait until sampling has begun, send ``signum``, return (code, seconds to stop, stderr).
+
+    With ``folder``, sampling has begun once the first checkpoint is in the run's hidden
+    staging folder there (the sampler writes it every two seconds); ``after`` counts from then.
+    """
     line = proc.stderr.readline()  # the "sampling ..." status line comes just before
     assert "sampling" in line, line
+    if folder is not None:
+        _partial_checkpoint(folder, proc)
     time.sleep(after)
     assert proc.poll() is None, "the fit finished before the signal"
     t0 = time.monotonic()
@@ -77,7 +84,8 @@ def uninterrupted(tmp_path_factory):
 def _interrupt_and_resume(tmp_path, signum, uninterrupted):
     problem, demos = _problem(tmp_path)
     run = tmp_path / "run"
-    code, seconds, err = _interrupt(_start_fit(problem, demos, run), signum, after=3.0)
+    code, seconds, err = _interrupt(_start_fit(problem, demos, run), signum, after=1.0,
+                                    folder=tmp_path)
     assert code == 130, err
     assert seconds < STOP_WITHIN, seconds
     assert f"bayesirl fit --resume {run}" in err
@@ -143,6 +151,8 @@ def test_fit_keeps_an_interrupted_run_and_resumes_it_with_a_stand_in_sampler(
                                                      "summary.json"]
     assert main(["report", str(run), "--quiet"]) == 0  # partial draws can be looked at
     assert "interrupted run" in capsys.readouterr().err
+    # The page itself says so (the report of a finished run, below, does not).
+    assert "INTERRUPTED RUN: only 10 draws per chain" in (run / "report.html").read_text()
     demos.write_text(demos.read_text() + "c,0,0,0,right\n")
     assert main(["fit", "--resume", str(run)]) == 2
     assert "changed since the run started" in capsys.readouterr().err
@@ -152,6 +162,42 @@ def test_fit_keeps_an_interrupted_run_and_resumes_it_with_a_stand_in_sampler(
     assert (summary["complete"], summary["draws_done"]) == (True, 60)
     assert sorted(p.name for p in run.iterdir()) == ["posterior.nc", "report.html",
                                                      "summary.json"]
+    assert "INTERRUPTED RUN" not in (run / "report.html").read_text()
     assert calls == [("checkpoint", False, 60), ("checkpoint", True, 60)]
     assert main(["fit", "--resume", str(run)]) == 2
     assert "already complete" in capsys.readouterr().err
+
+
+def _partial_checkpoint(folder, proc, deadline=120.0):
+    """Wait until the running fit has written a checkpoint into its hidden staging folder."""
+    t0 = time.monotonic()
+    while time.monotonic() - t0 < deadline:
+        found = [p for p in folder.glob(".run.partial-*") if (p / "checkpoint").is_file()]
+        if found:
+            return found[0]
+        assert proc.poll() is None, proc.communicate()
+        time.sleep(0.1)
+    raise AssertionError("no checkpoint was written")
+
+
+def test_sigkill_then_resume_from_the_hidden_folder(tmp_path, uninterrupted):
+    problem, demos = _problem(tmp_path)
+    run = tmp_path / "run"
+    proc = _start_fit(problem, demos, run)
+    partial = _partial_checkpoint(tmp_path, proc)
+    # While the run is alive its staging folder is not taken from under it.
+    busy = subprocess.run([sys.executable, "-m", "bayesirl", "fit", "--resume", str(run)],
+                          env=cli_env(), capture_output=True, text=True, timeout=120)
+    assert busy.returncode == 2 and "still running" in busy.stderr, busy.stderr
+    os.killpg(proc.pid, signal.SIGKILL)  # no handler runs: nothing is saved on the way out
+    proc.communicate(timeout=60)
+    assert proc.returncode == -signal.SIGKILL
+    assert not run.exists() and (partial / "checkpoint").is_file()
+    done = subprocess.run([sys.executable, "-m", "bayesirl", "--quiet", "fit", "--resume",
+                           str(run)], env=cli_env(), capture_output=True, text=True,
+                          timeout=300)
+    assert done.returncode == 0, done.stderr
+    summary = json.loads((run / "summary.json").read_text())
+    assert summary["complete"] is True and summary["draws_done"] == 2500
+    assert not list(tmp_path.glob(".run*"))  # the hidden folder's state moved into run
+    np.testing.assert_array_equal(_weights(run), uninterrupted)
