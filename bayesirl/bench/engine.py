@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import time
 
 import numpy as np
@@ -128,8 +129,6 @@ def first_call_seconds() -> float:
 
 def run(quick: bool = False, log=print) -> dict:
     """Run every engine case; returns a JSON-ready dict."""
-    import os
-
     # Other work on the machine inflates the times: the 1-minute load at start and end.
     out = {"first_call_s": first_call_seconds(), "cases": [],
            "load_1min": [os.getloadavg()[0]]}
