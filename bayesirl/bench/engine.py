@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import time
 
 import numpy as np
@@ -128,7 +129,9 @@ def first_call_seconds() -> float:
 
 def run(quick: bool = False, log=print) -> dict:
     """Run every engine case; returns a JSON-ready dict."""
-    out = {"first_call_s": first_call_seconds(), "cases": []}
+    # Other work on the machine inflates the times: the 1-minute load at start and end.
+    out = {"first_call_s": first_call_seconds(), "cases": [],
+           "load_1min": [os.getloadavg()[0]]}
     for name, make in _cases(quick):
         row = {"problem": name, **measure_case(make(), direct=not name.startswith("random"))}
         log(
@@ -136,4 +139,5 @@ def run(quick: bool = False, log=print) -> dict:
             f"({row['warm_sweeps']:.0f} sweeps), x{row['speedup_warm']:.0f} vs baseline"
         )
         out["cases"].append(row)
+    out["load_1min"].append(os.getloadavg()[0])
     return out

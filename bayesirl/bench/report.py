@@ -55,7 +55,12 @@ def _engine_md(engine: dict) -> list[str]:
             f"{r['speedup_warm']:.1f}x | {r['speedup_cold']:.1f}x | {r['exp_log_sweeps']:.1f} |"
         )
     lines += ["", f"First evaluation in a fresh process (compiled-kernel load): "
-              f"{engine['first_call_s']:.2f} s, excluded from the table.", ""]
+              f"{engine['first_call_s']:.2f} s, excluded from the table."]
+    if "load_1min" in engine:
+        lines.append("1-minute load average at the start and end of this suite: "
+                     + " / ".join(f"{x:.1f}" for x in engine["load_1min"])
+                     + " (on 2 cores; above ~1 other work inflated the times).")
+    lines.append("")
     lines += _engine_targets(engine) + _high_discount(engine)
     return lines
 
