@@ -17,8 +17,8 @@ from bayesirl.errors import InputError
 from bayesirl.posterior import checkpoint as ckpt
 from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.chains import run_job
-from bayesirl.posterior.interrupt import Stopper
 from bayesirl.posterior.groups import make_model
+from bayesirl.posterior.interrupt import Stopper
 from bayesirl.posterior.parallel import run_parallel
 from bayesirl.posterior.partial import Book, finish
 from bayesirl.posterior.progress import ChainProgress
