@@ -7,15 +7,18 @@ from bayesirl.errors import InputError, Interrupted, SolverError
 from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
 from bayesirl.model import Demonstrations, TabularMDP, simulate
 from bayesirl.posterior import Posterior, sample
-from bayesirl.priors import Laplace, LogNormal, Normal, Uniform
+from bayesirl.posterior.groups import Pooling
+from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Uniform
 
 __version__ = "0.1.0"
 
 __all__ = [
     "BoltzmannLikelihood",
+    "HalfNormal",
     "Laplace",
     "LogNormal",
     "Normal",
+    "Pooling",
     "Posterior",
     "Uniform",
     "sample",
