@@ -49,7 +49,8 @@ def _load(problem_path, demos_path):
 
 def _sample_kwargs(problem, settings: dict, quiet: bool) -> dict:
     return {"prior": problem.prior, "rationality": problem.rationality,
-            "pin": problem.pin or None, "progress": not quiet, **settings}
+            "pin": problem.pin or None, "progress": not quiet, "pooling": problem.pooling,
+            **settings}
 
 
 def fit_command(args) -> int:

@@ -6,6 +6,7 @@ import inspect
 import sys
 from pathlib import Path
 
+from bayesirl.commands.demonstrators import demonstrator_lines
 from bayesirl.commands.runs import say
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
@@ -119,6 +120,8 @@ def check_command(args) -> int:
         return 0
     demos = read_demonstrations(args.demonstrations, problem)
     print(f"{args.demonstrations}: ok - {demos.n_episodes} episodes, {demos.n_steps} steps")
+    for line in demonstrator_lines(problem, demos):
+        print(line)
     found = structural.findings(mdp, demos)
     if not found:
         print("structural findings: none (every weight can in principle be learned from "

@@ -14,10 +14,13 @@ from pathlib import Path
 from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml
+from bayesirl.io.pooling import pooling_from
 from bayesirl.io.settings import prior_from, rationality_from, sampler_from
 from bayesirl.model import TabularMDP
+from bayesirl.posterior.groups import Pooling
 
-TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler"}
+TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
+            "pooling"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -37,6 +40,7 @@ class Problem:
     sampler : keyword arguments for :func:`bayesirl.sample`
     source : the problem file
     blocked : states that demonstrations may never visit (blocked map cells)
+    pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
     """
 
     mdp: TabularMDP
@@ -50,6 +54,7 @@ class Problem:
     title: str = ""
     world: str = "arrays"
     blocked: frozenset = field(default_factory=frozenset)
+    pooling: Pooling = field(default_factory=Pooling)
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -127,4 +132,5 @@ def read_problem(path) -> Problem:
         rationality=rationality, pin=pin, demonstrator=demonstrator,
         sampler=sampler_from(top.table("sampler", {})), source=path,
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
+        pooling=pooling_from(top.table("pooling", {}), features),
     )
