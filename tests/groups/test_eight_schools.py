@@ -14,8 +14,12 @@ variances are the normal-normal formulas (BDA eqs. 5.17, 5.20, with mu's prior a
 Moments follow by quadrature over tau (scipy.integrate.quad).
 
 Divergences: Betancourt & Girolami (2015) show the centred form's funnel makes HMC
-diverge; the non-centred one should not. The negative control runs the same sampler on
-the centred form of the same posterior and must see divergences.
+diverge; the non-centred one should not. Measured here, 4 chains x 5000 draws for each of
+three seeds: at NUTS target acceptance 0.8 the non-centred form still had 5, 1 and 0
+divergent transitions (rare, in the posterior's thin region at small tau), at 0.9 none;
+so the check runs at 0.9 (as Stan users are advised to raise adapt_delta, common
+practice). The negative control runs the same sampler and settings on the centred form
+of the same posterior and must see divergences.
 """
 
 from __future__ import annotations
@@ -36,6 +40,7 @@ Y = np.array([28.0, 8.0, -3.0, 7.0, -1.0, 1.0, 18.0, 12.0])
 SIGMA = np.array([15.0, 10.0, 16.0, 11.0, 9.0, 11.0, 10.0, 18.0])
 MU_SD, TAU_SCALE = 20.0, 10.0
 CHAINS, DRAWS, WARMUP, SEED = 4, 1000, 1000, 11
+TARGET_ACCEPT = 0.9
 
 
 def school_model() -> GroupModel:
@@ -90,7 +95,8 @@ def _chains(density, dim, draw, chains=CHAINS, draws=DRAWS):
     out, divergent = [], 0
     for k, s in enumerate(seeds):
         x0 = np.random.default_rng(k).uniform(-2, 2, dim)
-        r = run_chain(density, x0, draws, WARMUP // (DRAWS // draws), s)
+        r = run_chain(density, x0, draws, WARMUP // (DRAWS // draws), s,
+                      target_accept=TARGET_ACCEPT)
         divergent += int(r.stats["divergent"].sum())
         out.append(np.array([draw(t) for t in r.draws]))
     return np.stack(out), divergent
@@ -143,6 +149,6 @@ def centred(x):
 def test_negative_control_centred_form_diverges():
     # The funnel at small tau (Neal 2003, "Slice sampling", sec. 8's funnel; Betancourt &
     # Girolami 2015, fig. 5): the same sampler and seeds on the centred form, 2 chains of
-    # 500 draws after 500 warmup (measured: 23 divergent transitions).
+    # 500 draws after 500 warmup.
     _, divergent = _chains(centred, 2 + len(Y), lambda x: x[:3], chains=2, draws=500)
     assert divergent > 0
