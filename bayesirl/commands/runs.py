@@ -59,12 +59,26 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
         summary.update(level=level, report=report.as_dict())
         if not quiet:
             print(report.table())
+        _demonstrators(posterior, level, summary, quiet)
     else:
         summary["note"] = ("interrupted: the draws so far are in posterior.nc and the sampler "
                            "state in checkpoint; continue with bayesirl fit --resume "
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+def _demonstrators(posterior, level: float, summary: dict, quiet: bool) -> None:
+    """Several demonstrators: population, spread and each one's weights (summary.json)."""
+    from bayesirl.posterior.group_summary import demonstrator_summary, render
+
+    record = demonstrator_summary(posterior, level)
+    if record is None:
+        return
+    summary["demonstrators"] = record
+    if not quiet:
+        print()
+        print(render(record))
 
 
 def _earlier_draws(run: RunFolder) -> int:
