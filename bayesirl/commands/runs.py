@@ -77,7 +77,9 @@ def _demonstrators(posterior, level: float, summary: dict, quiet: bool) -> None:
         return
     summary["demonstrators"] = record
     if not quiet:
-        print()
+        what = ("the population mean" if record["pooling"] == "partial"
+                else "the plain mean of the demonstrators' weights")
+        print(f"\n(the table above and report.html describe {what}; each demonstrator:)")
         print(render(record))
 
 

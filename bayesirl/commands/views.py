@@ -83,6 +83,10 @@ def suggest_command(args) -> int:
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = _load_posterior(run, summary)
+    if getattr(posterior, "groups", None) is not None:
+        raise InputError(f"{run.root}: suggestions for a run with several demonstrators "
+                         "(pooling separate or partial) are not available yet; the designer "
+                         "would treat every episode as one demonstrator's")
     names = posterior.feature_names
     if args.target is not None and args.target not in names:
         raise InputError(f"--target: unknown feature {args.target!r}; features are "
