@@ -143,3 +143,23 @@ def test_fit_refuses_partial_pooling_without_names():
 def _tiny_model():
     mdp = bi.TabularMDP(np.full((2, 2, 2), 0.5), np.arange(8.0).reshape(2, 2, 2) / 8, discount=0.5)
     return mdp, bi.Demonstrations.from_arrays([[0, 1]], [[1]])
+
+
+def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
+    from bayesirl.cli import main
+
+    problem = _write(tmp_path, "p.toml", TINY_TOML + '\n[pooling]\nkind = "partial"\n')
+    demos = _write(tmp_path, "w.csv", NAMED_CSV)
+    out = tmp_path / "run"
+    assert main(["fit", str(problem), str(demos), "--out", str(out), "--chains", "1",
+                 "--draws", "40", "--warmup", "40"]) == 0
+    text = capsys.readouterr().out
+    assert "describe the population mean" in text and "spread (sd across)" in text
+    summary = json.loads((out / "summary.json").read_text())
+    rec = summary["demonstrators"]
+    assert rec["pooling"] == "partial" and list(rec["demonstrators"]) == ["ida", "jon"]
+    assert rec["demonstrators"]["jon"]["steps"] == 3
+    post = bi.Posterior.load(out / "posterior.nc")
+    assert post.groups["demonstrators"] == ["ida", "jon"]
+    assert main(["suggest", str(out)]) == 2  # bad input, not our bug
+    assert "several demonstrators" in capsys.readouterr().err
