@@ -15,7 +15,13 @@ from posterior.problems import PRIOR
 
 import bayesirl as bi
 from bayesirl.posterior import checkpoint, storage
-from bayesirl.posterior.group_summary import demonstrator_summary, render
+from bayesirl.posterior.group_summary import (
+    demonstrator_summary,
+    heterogeneity,
+    new_demonstrator,
+    render,
+    verdict_sentence,
+)
 from bayesirl.posterior.groups import GroupModel
 
 from .problems import fresh, three_demonstrators
@@ -77,3 +83,38 @@ def test_summary_record_reports_the_draws():
     assert "population mean" in text and "cai (18 steps)" in text
     assert "partial pooling of 3 demonstrators" in p.summary()
     assert demonstrator_summary(bi.sample(fresh(three_demonstrators()), PRIOR, **RUN)) is None
+
+
+def test_heterogeneity_verdicts_follow_the_interval():
+    # Synthetic spread draws (chains=1, draws=2000): all above, all below, straddling the
+    # negligible value 0.1; the verdict reads the 90% equal-tailed interval only.
+    rng = np.random.default_rng(0)
+    spread = np.stack([rng.uniform(0.2, 0.6, 2000), rng.uniform(0.0, 0.05, 2000),
+                       rng.uniform(0.0, 0.6, 2000), np.zeros(2000)], axis=-1)[None]
+    v = heterogeneity(spread, ["a", "b", "c", "d"], pinned=("d",))
+    assert v == {"a": "differ", "b": "agree", "c": "unclear", "d": "pinned"}
+    assert verdict_sentence(v) == ("demonstrators clearly differ on a; they agree (within "
+                                   "0.1) on b; the data cannot tell whether they differ on c")
+    # the same draws judged against a larger negligible value: a is no longer "differ"
+    assert heterogeneity(spread, ["a", "b", "c", "d"], negligible=0.3)["a"] == "unclear"
+
+
+def test_new_demonstrator_has_the_population_law():
+    # Law of total variance (iid synthetic posterior draws, so the MCSE is sd / sqrt(n)):
+    # E[w_new] = E[mu], Var[w_new] = Var[mu] + E[tau^2]. Negative control: without the
+    # spread term the variance is Var[mu] alone, off by E[tau^2] = 0.25 (z ~ 70).
+    rng = np.random.default_rng(1)
+    n = 20000
+    mu, tau = rng.normal(0.5, 0.3, (1, n, 1)), np.full((1, n, 1), 0.5)
+    new = new_demonstrator(mu, tau, seed=7)
+    assert abs(new.mean() - 0.5) < 4 * np.sqrt(0.09 + 0.25) / np.sqrt(n)
+    var_se = np.sqrt(2 / n) * (0.09 + 0.25)  # sd of a normal sample variance
+    assert abs(new.var() - 0.34) < 4 * var_se
+    assert abs(mu.var() - 0.34) > 4 * var_se
+
+
+def test_record_has_the_verdict_and_the_new_demonstrator():
+    rec = demonstrator_summary(posterior("partial"))
+    assert set(rec["heterogeneity"]["verdicts"]) == {"x", "y"}
+    assert rec["new_demonstrator"]["x"]["sd"] > rec["population"]["x"]["sd"]
+    assert "new_demonstrator" not in demonstrator_summary(posterior("separate"))
