@@ -59,7 +59,7 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
         summary.update(level=level, report=report.as_dict())
         if not quiet:
             print(report.table())
-        _demonstrators(posterior, level, summary, quiet)
+        _demonstrators(run, posterior, level, summary, quiet)
     else:
         summary["note"] = ("interrupted: the draws so far are in posterior.nc and the sampler "
                            "state in checkpoint; continue with bayesirl fit --resume "
@@ -68,14 +68,19 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
     return summary
 
 
-def _demonstrators(posterior, level: float, summary: dict, quiet: bool) -> None:
-    """Several demonstrators: population, spread and each one's weights (summary.json)."""
+def _demonstrators(run: RunFolder, posterior, level: float, summary: dict,
+                   quiet: bool) -> None:
+    """Several demonstrators: population, spread and each one's weights (summary.json,
+    printed) and their forest plot (demonstrators.png)."""
     from bayesirl.posterior.group_summary import demonstrator_summary, render
 
     record = demonstrator_summary(posterior, level)
     if record is None:
         return
     summary["demonstrators"] = record
+    from bayesirl.report.forest import forest_figure
+
+    forest_figure(record).savefig(run.root / "demonstrators.png")
     if not quiet:
         what = ("the population mean" if record["pooling"] == "partial"
                 else "the plain mean of the demonstrators' weights")

@@ -159,6 +159,7 @@ def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
     rec = summary["demonstrators"]
     assert rec["pooling"] == "partial" and list(rec["demonstrators"]) == ["ida", "jon"]
     assert rec["demonstrators"]["jon"]["steps"] == 3
+    assert (out / "demonstrators.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     post = bi.Posterior.load(out / "posterior.nc")
     assert post.groups["demonstrators"] == ["ida", "jon"]
     assert main(["suggest", str(out)]) == 2  # bad input, not our bug

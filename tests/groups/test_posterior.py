@@ -118,3 +118,13 @@ def test_record_has_the_verdict_and_the_new_demonstrator():
     assert set(rec["heterogeneity"]["verdicts"]) == {"x", "y"}
     assert rec["new_demonstrator"]["x"]["sd"] > rec["population"]["x"]["sd"]
     assert "new_demonstrator" not in demonstrator_summary(posterior("separate"))
+
+
+def test_forest_figure_has_a_panel_per_feature():
+    from bayesirl.report.forest import forest_figure
+
+    rec = demonstrator_summary(posterior("partial"))
+    fig = forest_figure(rec)
+    assert len(fig.axes) == 2
+    labels = [t.get_text() for t in fig.axes[0].get_yticklabels()]
+    assert labels == ["new demonstrator", "cai", "ben", "ana"]
