@@ -114,7 +114,8 @@ def _finish(args, out: Path, code: int) -> None:
         print(f"interrupted: the draws so far are kept in {out} (marked incomplete); "
               f"continue with: bayesirl fit --resume {shlex.quote(str(out))}", file=sys.stderr)
     else:
-        say(args, f"wrote {out}/posterior.nc, summary.json and report.html")
+        made = "report.html" if (out / "report.html").exists() else "demonstrators.png"
+        say(args, f"wrote {out}/posterior.nc, summary.json and {made}")
 
 
 def resume_command(args) -> int:

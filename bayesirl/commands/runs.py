@@ -51,7 +51,13 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
                "draws_done": int(posterior.n_draws) if drawn else _earlier_draws(run)}
     if drawn:
         posterior.save(run.posterior)
-    if complete:
+    if complete and _separate(posterior):
+        # No population model: the report's verdicts would judge the plain mean of G
+        # independent weights against one weight's prior (contraction overstated G-fold).
+        summary.update(level=level, note="separate rewards per demonstrator: no report.html "
+                       "(see demonstrators in this file and demonstrators.png)")
+        _demonstrators(run, posterior, level, summary, quiet)
+    elif complete:
         from bayesirl.report import ambiguity
 
         report = ambiguity(posterior, level=level)
@@ -66,6 +72,11 @@ def write_results(run: RunFolder, posterior, record: dict, complete: bool,
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+def _separate(posterior) -> bool:
+    groups = getattr(posterior, "groups", None)
+    return groups is not None and groups["pooling"] == "separate"
 
 
 def _demonstrators(run: RunFolder, posterior, level: float, summary: dict,

@@ -37,6 +37,11 @@ def report_command(args) -> int:
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
     posterior = _load_posterior(run, summary)
+    groups = getattr(posterior, "groups", None)
+    if groups is not None and groups["pooling"] == "separate":
+        raise InputError(f"{run.root}: separate rewards per demonstrator have no population "
+                         "to report on; see summary.json (demonstrators) and "
+                         "demonstrators.png")
     report = ambiguity(posterior, level=args.level)
     report.to_html(run.report)
     summary.update(level=args.level, report=report.as_dict())

@@ -164,3 +164,21 @@ def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
     assert post.groups["demonstrators"] == ["ida", "jon"]
     assert main(["suggest", str(out)]) == 2  # bad input, not our bug
     assert "several demonstrators" in capsys.readouterr().err
+
+
+def test_fit_with_separate_rewards_writes_no_population_report(tmp_path, capsys):
+    # Negative case of the report: separate rewards have no population, so no verdicts on a
+    # mean of independent weights (whose prior is G times narrower than one weight's).
+    from bayesirl.cli import main
+
+    problem = _write(tmp_path, "p.toml", TINY_TOML + '\n[pooling]\nkind = "separate"\n')
+    demos = _write(tmp_path, "w.csv", NAMED_CSV)
+    out = tmp_path / "run"
+    assert main(["fit", str(problem), str(demos), "--out", str(out), "--chains", "1",
+                 "--draws", "30", "--warmup", "30"]) == 0
+    assert not (out / "report.html").exists() and (out / "demonstrators.png").exists()
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["demonstrators"]["pooling"] == "separate" and "no report" in summary["note"]
+    assert "and demonstrators.png" in capsys.readouterr().err
+    assert main(["report", str(out)]) == 2
+    assert "no population" in capsys.readouterr().err
