@@ -8,6 +8,8 @@ solve from another demonstrator's solution.
 
 from __future__ import annotations
 
+import inspect
+
 from bayesirl.evidence.boltzmann import BoltzmannTerm
 from bayesirl.evidence.model import Evidence
 from bayesirl.likelihood import BoltzmannLikelihood
@@ -18,15 +20,19 @@ def weights_name(index: int) -> str:
     return f"weights/{index}"
 
 
+def likelihood_settings(likelihood) -> dict:
+    """Every constructor setting of ``likelihood`` but its MDP and demonstrations (so a
+    setting added to BoltzmannLikelihood later reaches the per-demonstrator copies too)."""
+    names = inspect.signature(BoltzmannLikelihood).parameters
+    return {n: getattr(likelihood, n) for n in names
+            if n not in ("mdp", "demos") and hasattr(likelihood, n)}
+
+
 def split_likelihood(likelihood) -> list[BoltzmannLikelihood]:
     """One likelihood per demonstrator of ``likelihood.demos``, same MDP and settings."""
-    demos = likelihood.demos
-    return [
-        BoltzmannLikelihood(likelihood.mdp, demos.subset(episodes),
-                            rationality=likelihood.rationality, q=likelihood.q,
-                            tol=likelihood.tol, gradient_rtol=likelihood.gradient_rtol)
-        for episodes in demos.groups().values()
-    ]
+    demos, settings = likelihood.demos, likelihood_settings(likelihood)
+    return [BoltzmannLikelihood(likelihood.mdp, demos.subset(episodes), **settings)
+            for episodes in demos.groups().values()]
 
 
 def demonstrator_evidence(likelihood) -> Evidence:

@@ -107,3 +107,14 @@ def test_demonstrator_names_are_validated(labels):
             bi.Demonstrations(episodes, labels)
     with pytest.raises(bi.InputError, match="names for"):
         bi.Demonstrations(episodes, ["a"] * (len(labels) + 1))
+
+
+def test_per_demonstrator_likelihoods_keep_every_setting():
+    from bayesirl.evidence.groups import likelihood_settings, split_likelihood
+
+    lik = bi.BoltzmannLikelihood(three_demonstrators().mdp, three_demonstrators().demos,
+                                 rationality=1.7, q="optimal", tol=1e-9, gradient_rtol=1e-7)
+    want = likelihood_settings(lik)
+    assert {"rationality", "q", "tol", "gradient_rtol"} <= set(want)
+    for part in split_likelihood(lik):
+        assert likelihood_settings(part) == want
