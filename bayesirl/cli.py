@@ -11,7 +11,7 @@ import sys
 import traceback
 from pathlib import Path
 
-from bayesirl.errors import InputError
+from bayesirl.errors import InputError, SolverError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
@@ -261,6 +261,11 @@ def main(argv: list[str] | None = None) -> int:
             traceback.print_exc()
         print(f"bayesirl {args.command}: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except SolverError as err:  # numerics, not the input: exit 1, with what to change
+        if args.debug:
+            traceback.print_exc()
+        print(f"bayesirl {args.command}: solver error: {err}", file=sys.stderr)
+        return EXIT_INTERNAL
     except KeyboardInterrupt:
         print(f"bayesirl {args.command}: interrupted; nothing was written", file=sys.stderr)
         return 130

@@ -28,7 +28,25 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
+    _keep_earlier(results, folder, only)
     return _write_main(results, folder)
+
+
+def _keep_earlier(results: dict, folder: Path, only) -> None:
+    """Suites not run this time keep their rows from ``folder``'s previous full results,
+    listed under ``kept_from_earlier`` (the report says they were not re-measured)."""
+    path = folder / "benchmark.json"
+    if not path.exists() or results["quick"]:
+        return
+    try:
+        earlier = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return
+    kept = [k for k in SUITES if k not in only and k in earlier and not earlier.get("quick")]
+    for k in kept:
+        results[k] = earlier[k]
+    if kept:
+        results["kept_from_earlier"] = kept
 
 
 def _write_main(results: dict, folder: Path) -> tuple[Path, Path]:

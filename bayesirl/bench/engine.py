@@ -6,10 +6,17 @@ import time
 
 import numpy as np
 
-from bayesirl.bench.problems import demonstrations_for, random_mdp, slippery_grid
-from bayesirl.bench.reference import reference_value_and_grad
+from bayesirl.bench.problems import (
+    BUS_TRUTH,
+    bus_engine,
+    demonstrations_for,
+    random_mdp,
+    slippery_grid,
+)
+from bayesirl.bench.reference import reference_newton_value_and_grad, reference_value_and_grad
 from bayesirl.kernels import soft_max_actions
 from bayesirl.likelihood import BoltzmannLikelihood
+from bayesirl.model import simulate
 
 
 def _median_time(fn, repeats: int) -> float:
@@ -21,6 +28,11 @@ def _median_time(fn, repeats: int) -> float:
     return float(np.median(times))
 
 
+# From this discount on, the baseline is Newton's method (value iteration from zero would
+# need ~log(1/tol) / (1 - g) sweeps: 230,000 at 0.9999).
+HIGH = 0.999
+
+
 def _cases(quick: bool):
     sizes = [10**3, 10**4] if quick else [10**3, 10**4, 10**5]
     for g in (0.95, 0.99):
@@ -28,11 +40,33 @@ def _cases(quick: bool):
             yield f"random S={n:.0e}".replace("+0", ""), lambda n=n, g=g: random_mdp(n, discount=g)
         for side in (32, 100):
             yield f"grid {side}x{side}", lambda side=side, g=g: slippery_grid(side, discount=g)
+    for g in (HIGH, 0.9999):  # the discounts of dynamic discrete choice
+        yield "random S=1e4", lambda g=g: random_mdp(10**4, discount=g)
+        yield "grid 100x100", lambda g=g: slippery_grid(100, discount=g)
+    for g in (0.95, HIGH, 0.9999):
+        yield "bus engine", lambda g=g: bus_engine(g)
 
 
-def measure_case(mdp, repeats: int = 7, seed: int = 0) -> dict:
-    """Time one problem: ours cold and warm (1% weight changes), the baseline, one sweep."""
-    w, demos = demonstrations_for(mdp, episodes=50, length=50, seed=seed)
+def _data(mdp, seed):
+    if mdp.feature_names == ("theta1", "RC"):  # the bus engine: 100 buses x 100 months
+        return BUS_TRUTH, simulate(mdp, BUS_TRUTH, 100, 100, seed=seed, start=0)
+    return demonstrations_for(mdp, episodes=50, length=50, seed=seed)
+
+
+def _baseline(mdp, direct: bool):
+    """``(name, function)``: value iteration, or Newton at high discounts (see HIGH) with
+    sparse LU steps (``direct``: grids and small problems) or GMRES (random sparse ones)."""
+    if mdp.discount < HIGH:
+        return "value iteration", reference_value_and_grad
+    return ("Newton + spsolve" if direct else "Newton + GMRES",
+            lambda m, d, w: reference_newton_value_and_grad(m, d, w, direct=direct))
+
+
+def measure_case(mdp, repeats: int = 7, seed: int = 0, direct: bool = True) -> dict:
+    """Time one problem: ours cold and warm (1% weight changes), the baseline, one sweep.
+
+    ``direct``: at high discounts the Newton baseline factors its steps (see _baseline)."""
+    w, demos = _data(mdp, seed)
     lik = BoltzmannLikelihood(mdp, demos)
     lik.evaluate(w)  # warm-up: compiled kernels loaded, caches allocated
 
@@ -49,11 +83,14 @@ def measure_case(mdp, repeats: int = 7, seed: int = 0) -> dict:
         state["w"] = state["w"] * (1.0 + 0.01 * rng.standard_normal(w.shape))
         lik.evaluate(state["w"])
 
+    before = dict(lik.work)
     t_warm = _median_time(warm, repeats)
+    work = {k: (lik.work[k] - before[k]) / repeats for k in before}
     big = mdp.n_states >= 10**5
-    t_ref = _median_time(lambda: reference_value_and_grad(mdp, demos, w), 1 if big else 3)
+    name, baseline = _baseline(mdp, direct)
+    t_ref = _median_time(lambda: baseline(mdp, demos, w), 1 if big else 3)
     ours = lik.evaluate(w)
-    ref = reference_value_and_grad(mdp, demos, w)
+    ref = baseline(mdp, demos, w)
     v = np.ones(mdp.n_states)
     t_sweep = _median_time(lambda: mdp.transitions @ v, 51)
     q = np.random.default_rng(1).normal(size=(mdp.n_actions, mdp.n_states))
@@ -72,6 +109,11 @@ def measure_case(mdp, repeats: int = 7, seed: int = 0) -> dict:
         "speedup_cold": t_ref / t_cold,
         "loglik_gap": abs(ours.loglik - ref[0]),
         "grad_gap": float(np.max(np.abs(ours.grad_weights - ref[1]))),
+        "grad_scale": float(np.max(np.abs(ref[1]))),
+        "baseline": name,
+        "warm_newton_steps": work["newton_steps"],
+        "warm_value_matvecs": work["value_matvecs"],
+        "warm_adjoint_matvecs": work["adjoint_matvecs"],
     }
 
 
@@ -88,7 +130,7 @@ def run(quick: bool = False, log=print) -> dict:
     """Run every engine case; returns a JSON-ready dict."""
     out = {"first_call_s": first_call_seconds(), "cases": []}
     for name, make in _cases(quick):
-        row = {"problem": name, **measure_case(make())}
+        row = {"problem": name, **measure_case(make(), direct=not name.startswith("random"))}
         log(
             f"  {name:<16} g={row['discount']}: warm {row['warm_s'] * 1e3:8.1f} ms "
             f"({row['warm_sweeps']:.0f} sweeps), x{row['speedup_warm']:.0f} vs baseline"

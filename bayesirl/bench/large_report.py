@@ -130,9 +130,10 @@ def _gradients(rows) -> list[str]:
         "of a fresh likelihood in the main process, a cold solve. *Warm*: median of 10",
         "gradients after 1% weight changes. *Fit*: wall time x processes / gradients. Solver",
         "work: means per gradient along a 20-step random walk from the posterior mean (steps",
-        "of 0.1 posterior sd): Newton steps (linear solves) and their GMRES mat-vecs (the",
-        "Bellman backups, one sweep per Newton iteration, not included), and the adjoint",
-        "solve's mat-vecs.",
+        "of 0.1 posterior sd), read from the likelihood's counters: Newton iterations (each a",
+        "backup; all but the last also a linear solve), every value mat-vec (GMRES and",
+        "backups), and the adjoint solve's mat-vecs. Rows measured before December 2026",
+        "counted linear solves and GMRES mat-vecs only (backups excluded).",
         "",
         "| states | build s | first s | warm ms | fit ms | Newton steps | value mat-vecs "
         "| adjoint mat-vecs |",

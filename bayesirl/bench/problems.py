@@ -1,4 +1,5 @@
-"""Benchmark problems: random sparse MDPs and slippery grid worlds (seeded, invented)."""
+"""Benchmark problems: random sparse MDPs and slippery grid worlds (seeded, invented), and the
+bus-engine replacement model of Rust (1987) (a published specification)."""
 
 from __future__ import annotations
 
@@ -66,6 +67,28 @@ def slippery_grid(
             feats[:, f] += np.exp(-((r - cr) ** 2 + (c - cc) ** 2) / (2 * width**2))
     feats -= feats.mean(axis=0)
     return TabularMDP(m, feats, discount=discount)
+
+
+# Rust (1987), "Optimal replacement of GMC bus engines", Econometrica 55, Table IX (values from
+# memory): 90 mileage bins, monthly increments of 0/1/2 bins, theta1 = 2.6275, RC = 9.7558.
+BUS_BINS = 90
+BUS_INCREMENTS = (0.3919, 0.5953, 0.0128)
+BUS_TRUTH = np.array([2.6275, 9.7558])
+
+
+def bus_engine(discount: float = 0.9999) -> TabularMDP:
+    """Keep (0) or replace (1) an engine in mileage bin x; features keep -> (-0.001 x, 0),
+    replace -> (0, -1), weights (theta1, RC). A replaced engine restarts at bin 0."""
+    n = BUS_BINS
+    p = np.zeros((n, 2, n))
+    for s in range(n):
+        for k, pk in enumerate(BUS_INCREMENTS):
+            p[s, 0, min(s + k, n - 1)] += pk
+            p[s, 1, min(k, n - 1)] += pk
+    phi = np.zeros((n, 2, 2))
+    phi[:, 0, 0] = -0.001 * np.arange(n)
+    phi[:, 1, 1] = -1.0
+    return TabularMDP(p, phi, discount=discount, feature_names=("theta1", "RC"))
 
 
 def demonstrations_for(mdp: TabularMDP, episodes: int, length: int, seed: int = 0):

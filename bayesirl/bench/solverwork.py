@@ -1,58 +1,18 @@
 """Solver work per gradient: Newton steps and Krylov mat-vecs of the value and adjoint solves.
 
-The likelihood has no counters of its own (yet): when it offers ``lik.work`` the profile
-reads that, otherwise it counts the calls of ``solve_discounted`` made by the soft Newton
-solver and by the likelihood's adjoint, by replacing the name in those two modules for the
-duration of the profile only. Each call returns ``(x, mat-vecs)``; its ``what=`` says which
-solve it was. Problems small enough for the dense Newton path make no such calls.
+Read from the likelihood's own cumulative counters (``lik.work``, see
+``bayesirl.likelihood.soft.new_work``): the difference over a walk of gradients, per gradient.
+Problems small enough for the dense Newton path count one "mat-vec" per Newton step and no
+adjoint solves.
 """
 
 from __future__ import annotations
 
 import time
-from contextlib import contextmanager
 
 import numpy as np
 
-import bayesirl.likelihood.soft as lik_soft
-import bayesirl.solver.soft as solver_soft
-
-_NEWTON, _ADJOINT = "soft Newton step", "likelihood adjoint"
-
-
-@contextmanager
-def counting_solves():
-    """Count ``solve_discounted`` calls and mat-vecs per ``what=``, restoring on exit.
-
-    Yields
-    ------
-    dict
-        ``newton_steps``, ``value_matvecs``, ``adjoint_solves``, ``adjoint_matvecs``,
-        updated as the solves run.
-    """
-    counts = {"newton_steps": 0, "value_matvecs": 0, "adjoint_solves": 0, "adjoint_matvecs": 0}
-    original_solver, original_lik = solver_soft.solve_discounted, lik_soft.solve_discounted
-
-    def counted(original):
-        def solve(*args, **kwargs):
-            x, used = original(*args, **kwargs)
-            what = kwargs.get("what")
-            if what == _NEWTON:
-                counts["newton_steps"] += 1
-                counts["value_matvecs"] += int(used)
-            elif what == _ADJOINT:
-                counts["adjoint_solves"] += 1
-                counts["adjoint_matvecs"] += int(used)
-            return x, used
-        return solve
-
-    solver_soft.solve_discounted = counted(original_solver)
-    lik_soft.solve_discounted = counted(original_lik)
-    try:
-        yield counts
-    finally:
-        solver_soft.solve_discounted = original_solver
-        lik_soft.solve_discounted = original_lik
+from bayesirl.errors import InputError
 
 
 def _numbers(work) -> dict | None:
@@ -91,33 +51,24 @@ def profile(lik, centre: np.ndarray, scale: np.ndarray | float, points: int = 20
     Returns
     -------
     dict
-        ``gradients``, ``seconds_per_gradient`` (median), ``source`` ("lik.work" or
-        "wrapped solve_discounted"), per-gradient means of the counters (when wrapping:
-        ``newton_steps``, ``value_matvecs``, ``adjoint_solves`` and ``adjoint_matvecs``;
-        from ``lik.work``: its numeric fields), and ``dense`` (True when the problem takes
-        the dense Newton path and no Krylov solve is made).
+        ``gradients``, ``seconds_per_gradient`` (median), ``source`` ("lik.work"),
+        per-gradient means of the numeric fields of ``lik.work`` (``newton_steps``,
+        ``value_matvecs``, ``adjoint_solves``, ``adjoint_matvecs``, ``cold_retries``), and
+        ``dense`` (True when the problem takes the dense Newton path, no Krylov solve).
     """
     rng = np.random.default_rng(seed)
     w = np.array(centre, dtype=float)
     lik.evaluate(w)
     steps = w + np.cumsum(scale * rng.standard_normal((points, w.size)), axis=0)
     before = _numbers(getattr(lik, "work", None))
-    times = []
-    if before is not None:
-        for x in steps:
-            times.append(_timed(lik, x))
-        after = _numbers(lik.work)
-        totals = {k: after[k] - before.get(k, 0.0) for k in after}
-        source = "lik.work"
-    else:
-        with counting_solves() as totals:
-            for x in steps:
-                times.append(_timed(lik, x))
-        source = "wrapped solve_discounted"
-    per = {k: v / points for k, v in totals.items()}
+    if before is None:
+        raise InputError("solver profile: the likelihood offers no work counters (lik.work)")
+    times = [_timed(lik, x) for x in steps]
+    after = _numbers(lik.work)
+    per = {k: (after[k] - before.get(k, 0.0)) / points for k in after}
     dense = lik.mdp.dynamics.dense is not None
     return {"gradients": points, "seconds_per_gradient": float(np.median(times)),
-            "source": source, "dense": dense, **per}
+            "source": "lik.work", "dense": dense, **per}
 
 
 def _timed(lik, w) -> float:

@@ -43,7 +43,8 @@ def _load(problem_path, demos_path):
     problem = read_problem(problem_path)
     demos = read_demonstrations(demos_path, problem)
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
-    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator)
+    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator,
+                              **problem.solver)
     return problem, lik
 
 

@@ -15,12 +15,12 @@ from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml
 from bayesirl.io.pooling import pooling_from
-from bayesirl.io.settings import prior_from, rationality_from, sampler_from
+from bayesirl.io.settings import prior_from, rationality_from, sampler_from, solver_from
 from bayesirl.model import TabularMDP
 from bayesirl.posterior.groups import Pooling
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "pooling"}
+            "solver", "pooling"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -38,6 +38,7 @@ class Problem:
     pin : dict of pinned weights (needed when the rationality is sampled)
     demonstrator : "soft" or "optimal" (the Q the Boltzmann policy uses)
     sampler : keyword arguments for :func:`bayesirl.sample`
+    solver : keyword arguments for :class:`bayesirl.BoltzmannLikelihood` (numerical settings)
     source : the problem file
     blocked : states that demonstrations may never visit (blocked map cells)
     pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
@@ -54,6 +55,7 @@ class Problem:
     title: str = ""
     world: str = "arrays"
     blocked: frozenset = field(default_factory=frozenset)
+    solver: dict = field(default_factory=dict)
     pooling: Pooling = field(default_factory=Pooling)
 
     def action_index(self, name: str) -> int | None:
@@ -132,5 +134,6 @@ def read_problem(path) -> Problem:
         rationality=rationality, pin=pin, demonstrator=demonstrator,
         sampler=sampler_from(top.table("sampler", {})), source=path,
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
+        solver=solver_from(top.table("solver", {})),
         pooling=pooling_from(top.table("pooling", {}), features),
     )

@@ -1,4 +1,4 @@
-"""The ``[prior]``, ``[rationality]`` and ``[sampler]`` tables of a problem file."""
+"""The ``[prior]``, ``[rationality]``, ``[sampler]`` and ``[solver]`` tables of a problem file."""
 
 from __future__ import annotations
 
@@ -6,6 +6,12 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.io.fields import Table
+from bayesirl.likelihood.soft import (
+    ADJOINT_RTOL,
+    DEFAULT_TOL,
+    MAX_LINEAR_ITERATIONS,
+    MAX_NEWTON_STEPS,
+)
 from bayesirl.priors import DEFAULT_SCALE, PRIORS, LogNormal
 
 # Weight priors by name and the parameters each takes (with defaults).
@@ -89,4 +95,26 @@ def sampler_from(table: Table) -> dict:
     if "target_accept" in table:
         out["target_accept"] = table.number("target_accept", low=0.0, high=1.0, low_open=True,
                                             high_open=True)
+    return out
+
+
+# [solver] keys: the BoltzmannLikelihood arguments of the same names, with their defaults.
+SOLVER_KEYS = {"tol": DEFAULT_TOL, "gradient_rtol": ADJOINT_RTOL,
+               "max_newton_steps": MAX_NEWTON_STEPS,
+               "max_linear_iterations": MAX_LINEAR_ITERATIONS}
+# Caps on the iteration limits: beyond these a solve would run for hours, not converge.
+_MOST = {"max_newton_steps": 10_000, "max_linear_iterations": 1_000_000}
+
+
+def solver_from(table: Table) -> dict:
+    """Keyword arguments for :class:`bayesirl.BoltzmannLikelihood` (its numerical settings)."""
+    table.only(set(SOLVER_KEYS))
+    out = {"tol": table.number("tol", SOLVER_KEYS["tol"], low=0.0, high=1e-3),
+           "gradient_rtol": table.number("gradient_rtol", SOLVER_KEYS["gradient_rtol"],
+                                         low=0.0, high=1e-2, low_open=True)}
+    for key, most in _MOST.items():
+        value = table.integer(key, SOLVER_KEYS[key], low=1)
+        if value > most:
+            raise table.fail(key, value, f"an integer between 1 and {most}")
+        out[key] = value
     return out

@@ -37,30 +37,41 @@ def _backup(p, reward, discount, values):  # pragma: no cover - compiled
 
 
 @njit(cache=True)
-def soft_newton_dense(p, reward, discount, values, tol, max_iter):  # pragma: no cover
+def soft_newton_dense(p, reward, discount, values, tol, max_iter, floor_factor):  # pragma: no cover
     """Soft policy iteration with exact dense Newton steps and the span stopping rule.
 
-    Returns ``(values, q, policy, log_policy, iterations)`` with the MacQueen-Porteus
-    midpoint correction (see :mod:`bayesirl.solver.soft`); ``iterations = -1`` when the
-    tolerance was not reached in ``max_iter`` steps.
+    Works on relative values: the start and every iterate are re-centred (the policy ignores
+    constants), so rounding stays at the scale of the value differences, not of
+    ``|r| / (1 - g)`` or of an offset left in a warm start. Stops when the span of the
+    residual is below ``tol / scale`` or below ``floor_factor * eps * M`` (the rounding bound
+    of one backup, see :func:`bayesirl.solver.soft.rounding_factor`).
+
+    Returns ``(values, q, policy, log_policy, iterations, bound)`` with the MacQueen-Porteus
+    midpoint correction (see :mod:`bayesirl.solver.soft`) and ``bound`` the width of the box
+    that holds the fixed point; ``iterations = -1`` when not converged in ``max_iter`` steps.
     """
     n_s = values.shape[0]
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
     eye = np.eye(n_s)
+    values = values - values.mean()
     for it in range(1, max_iter + 1):
         q, v_new, policy = _backup(p, reward, discount, values)
         residual = v_new - values
         hi, lo = residual.max(), residual.min()
-        floor = max(tol, 64 * 2.220446049250313e-16 * max(1.0, np.abs(v_new).max()))
-        if scale * (hi - lo) <= floor:
+        size = max(np.abs(q).max(), np.abs(v_new).max(), np.abs(values).max())
+        floor = floor_factor * 2.220446049250313e-16 * size
+        if scale * (hi - lo) <= max(tol, scale * floor):
             mid = 0.5 * (hi + lo)
             shift = scale * mid
             log_policy = q - v_new
-            return v_new + shift, q + discount * (mid + shift), policy, log_policy, it
+            bound = scale * (hi - lo)
+            return v_new + shift, q + discount * (mid + shift), policy, log_policy, it, bound
         centred = residual - residual.mean()
         step = np.linalg.solve(eye - discount * _policy_matrix(p, policy), centred)
         values = values + step
-    return values, np.empty((0, 0)), np.empty((0, 0)), np.empty((0, 0)), -1
+        values = values - values.mean()
+    empty = np.empty((0, 0))
+    return values, empty, empty, empty, -1, np.inf
 
 
 @njit(cache=True)
@@ -71,10 +82,11 @@ def adjoint_dense(p, policy, discount, rho):  # pragma: no cover - compiled
     return np.linalg.solve(np.eye(n_s) - discount * m.T, rho)
 
 
-def soft_newton_dense_ref(p, reward, discount, values, tol, max_iter):
+def soft_newton_dense_ref(p, reward, discount, values, tol, max_iter, floor_factor):
     """Reference for :func:`soft_newton_dense`: numpy, same algorithm, uncompiled."""
     n_s = values.shape[0]
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    values = values - values.mean()
     for it in range(1, max_iter + 1):
         q = reward + discount * np.einsum("ast,t->as", p, values)
         top = q.max(axis=0)
@@ -82,15 +94,18 @@ def soft_newton_dense_ref(p, reward, discount, values, tol, max_iter):
         policy = np.exp(q - v_new)
         residual = v_new - values
         hi, lo = residual.max(), residual.min()
-        floor = max(tol, 64 * np.finfo(float).eps * max(1.0, np.abs(v_new).max()))
-        if scale * (hi - lo) <= floor:
+        size = max(np.abs(q).max(), np.abs(v_new).max(), np.abs(values).max())
+        floor = floor_factor * np.finfo(float).eps * size
+        if scale * (hi - lo) <= max(tol, scale * floor):
             mid = 0.5 * (hi + lo)
             shift = scale * mid
-            return v_new + shift, q + discount * (mid + shift), policy, q - v_new, it
+            bound = scale * (hi - lo)
+            return v_new + shift, q + discount * (mid + shift), policy, q - v_new, it, bound
         p_pi = np.einsum("as,ast->st", policy, p)
         step = np.linalg.solve(np.eye(n_s) - discount * p_pi, residual - residual.mean())
         values = values + step
-    return values, None, None, None, -1
+        values = values - values.mean()
+    return values, None, None, None, -1, np.inf
 
 
 def adjoint_dense_ref(p, policy, discount, rho):

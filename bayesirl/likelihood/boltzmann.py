@@ -42,6 +42,11 @@ class BoltzmannLikelihood:
         Relative tolerance of the adjoint solve; the gradient's relative error is about
         this. The default suits samplers (see :mod:`bayesirl.likelihood.soft`); pass 1e-11
         or less to compare gradients with another code to many digits.
+    max_newton_steps : int
+        Most Newton steps of one soft Bellman solve before it fails (a failed warm-started
+        solve is retried once from scratch).
+    max_linear_iterations : int
+        Most GMRES iterations (mat-vecs) of one linear solve (Newton step or adjoint).
 
     Notes
     -----
@@ -53,6 +58,8 @@ class BoltzmannLikelihood:
     def __init__(
         self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10,
         gradient_rtol: float = soft.ADJOINT_RTOL,
+        max_newton_steps: int = soft.MAX_NEWTON_STEPS,
+        max_linear_iterations: int = soft.MAX_LINEAR_ITERATIONS,
     ) -> None:
         if q not in ("soft", "optimal"):
             raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
@@ -65,8 +72,15 @@ class BoltzmannLikelihood:
         self.gradient_rtol = float(gradient_rtol)
         if not 0.0 < self.gradient_rtol < 1.0:
             raise InputError(f"gradient_rtol: expected a number in (0, 1); got {gradient_rtol!r}")
+        if not 0.0 <= self.tol < 1.0:  # 0: as tight as floating point allows
+            raise InputError(f"tol: expected a number in [0, 1); got {tol!r}")
+        self.max_newton_steps = _count(max_newton_steps, "max_newton_steps")
+        self.max_linear_iterations = _count(max_linear_iterations, "max_linear_iterations")
         self._cache = self._new_cache()
         self.n_evaluations = 0
+        # Cumulative solver effort (soft model, discounted): Newton steps, mat-vecs, adjoint
+        # solves, cold retries after a failed warm start (soft.new_work). Read, never reset.
+        self.work = soft.new_work()
 
     def __getstate__(self) -> dict:
         # Warm starts (and the LU factorisation, which does not pickle) stay behind: a copy
@@ -82,7 +96,8 @@ class BoltzmannLikelihood:
         self._cache = self._new_cache()
 
     def _new_cache(self) -> dict:
-        return self._model.new_cache(self.mdp, self.counts, self.tol, self.gradient_rtol)
+        return self._model.new_cache(self.mdp, self.counts, self.tol, self.gradient_rtol,
+                                     self.max_newton_steps, self.max_linear_iterations)
 
     @property
     def n_features(self) -> int:
@@ -118,7 +133,7 @@ class BoltzmannLikelihood:
         """Log-likelihood with gradients in ``weights`` and ``log(rationality)``."""
         w = self.mdp.check_weights(weights)
         beta = self.rationality if rationality is None else _positive(rationality)
-        loglik, grad_w = self._model.evaluate(self.mdp, self.counts, self._cache, w, beta)
+        loglik, grad_w = self._evaluate(w, beta, True)
         self.n_evaluations += 1
         return LikelihoodValue(float(loglik), grad_w, float(w @ grad_w))
 
@@ -126,11 +141,13 @@ class BoltzmannLikelihood:
         """Log-likelihood without the gradient (skips the adjoint solve)."""
         w = self.mdp.check_weights(weights)
         beta = self.rationality if rationality is None else _positive(rationality)
-        loglik, _ = self._model.evaluate(
-            self.mdp, self.counts, self._cache, w, beta, gradient=False
-        )
+        loglik, _ = self._evaluate(w, beta, False)
         self.n_evaluations += 1
         return float(loglik)
+
+    def _evaluate(self, w, beta, gradient):
+        return self._model.evaluate(self.mdp, self.counts, self._cache, w, beta, gradient,
+                                    self.work)
 
     def value_and_grad(self, weights) -> tuple[float, np.ndarray]:
         """``(log_likelihood, gradient in weights)`` at the default rationality."""
@@ -140,6 +157,12 @@ class BoltzmannLikelihood:
     def log_likelihood(self, weights, rationality: float | None = None) -> float:
         """Log-likelihood only; an alias of :meth:`value`."""
         return self.value(weights, rationality)
+
+
+def _count(value, name: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
+        raise InputError(f"{name}: expected a whole number >= 1; got {value!r}")
+    return int(value)
 
 
 def _positive(beta) -> float:

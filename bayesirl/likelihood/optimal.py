@@ -12,15 +12,19 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayesirl.errors import SolverError
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
-from bayesirl.likelihood.soft import ADJOINT_RTOL
-from bayesirl.solver import logsumexp_rows, policy_iteration, solve_discounted
+from bayesirl.likelihood.soft import ADJOINT_RTOL, MAX_LINEAR_ITERATIONS, MAX_NEWTON_STEPS
+from bayesirl.solver import Preconditioner, logsumexp_rows, policy_iteration, solve_discounted
 from bayesirl.solver.finite import forward_adjoint
 
 
-def new_cache(mdp, counts, tol: float = 0.0, gradient_rtol: float = ADJOINT_RTOL) -> dict:
+def new_cache(mdp, counts, tol: float = 0.0, gradient_rtol: float = ADJOINT_RTOL,
+              max_steps: int = MAX_NEWTON_STEPS,
+              max_matvecs: int = MAX_LINEAR_ITERATIONS) -> dict:
     """Warm start: the previous greedy policy and adjoint (policy iteration is exact)."""
-    return {"greedy": None, "adjoint": None, "gradient_rtol": gradient_rtol}
+    return {"greedy": None, "adjoint": None, "gradient_rtol": gradient_rtol,
+            "max_matvecs": max_matvecs, "precond": Preconditioner()}
 
 
 def _boltzmann(q_star, beta):
@@ -35,10 +39,11 @@ def _one_hot(greedy, n_a):
     return out
 
 
-def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
+def evaluate(mdp, counts, cache, w, beta, gradient: bool = True, work: dict | None = None):
     """Return ``(log L, dlogL/dw)``; updates the warm starts in ``cache``.
 
     The gradient costs little beside policy iteration here, so it is always computed.
+    ``work`` is accepted for the same signature as the soft model and left unchanged.
     """
     if mdp.horizon is not None:
         return _evaluate_finite(mdp, counts, w, beta)
@@ -49,15 +54,33 @@ def evaluate(mdp, counts, cache, w, beta, gradient: bool = True):
     loglik = float(counts.sa @ log_policy.ravel())
     expected = (counts.s[:, None] * policy).ravel()
     rho = push_back(mdp, counts.sa - expected)
-    m, _ = solve_discounted(
-        mdp.dynamics.greedy_matrix(sol.greedy), g, g * rho, x0=cache["adjoint"],
-        rtol=cache["gradient_rtol"], transpose=True, what="optimal-Q adjoint",
-    )
+    m = _adjoint(mdp, sol.greedy, g * rho, cache)
     cache["adjoint"] = m
     one_hot = _one_hot(sol.greedy, mdp.n_actions)
     grad = counts.feature_total - policy_feature_sum(mdp, policy, counts.s)
     grad = grad + policy_feature_sum(mdp, one_hot, m)
     return loglik, beta * grad
+
+
+def _adjoint(mdp, greedy, source, cache):
+    """The adjoint from the previous one; once more from zero if that fails (see soft.py)."""
+    matrix = mdp.dynamics.greedy_matrix(greedy)
+
+    def solve(x0):
+        # Preconditioned like the soft model's adjoint: near discount 1 a deterministic
+        # policy's I - g P_g^T stalls plain GMRES (seen at 0.9999 on the bus-engine model).
+        return solve_discounted(matrix, mdp.discount, source, x0=x0,
+                                rtol=cache["gradient_rtol"], transpose=True,
+                                precond=cache["precond"], maxiter=cache["max_matvecs"],
+                                what="optimal-Q adjoint")[0]
+
+    try:
+        return solve(cache["adjoint"])
+    except SolverError:
+        if cache["adjoint"] is None and cache["precond"].lu is None:
+            raise
+    cache["precond"] = Preconditioner()
+    return solve(None)
 
 
 def _evaluate_finite(mdp, counts, w, beta):

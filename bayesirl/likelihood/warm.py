@@ -14,7 +14,7 @@ import numpy as np
 from bayesirl.solver import Preconditioner
 
 # Entries fixed by the problem itself (rebuilt by new_cache); everything else is warm start.
-_CONSTANT = ("rho", "tol", "gradient_rtol")
+_CONSTANT = ("rho", "tol", "gradient_rtol", "max_steps", "max_matvecs")
 # Entries that are tuples of equal-length sequences of arrays (likelihood.predict's history):
 # saved as one 2-D array per part, read back as such (predict reads both forms alike).
 _TUPLES = ("path",)

@@ -18,7 +18,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from bayesirl.errors import InputError
+from bayesirl.errors import InputError, SolverError
 from bayesirl.posterior import interrupt
 from bayesirl.posterior.interrupt import Guarded, Stopper, StopRequested
 from bayesirl.posterior.model import PosteriorModel
@@ -48,13 +48,27 @@ def chain_settings(settings: dict) -> ChainSettings:
                          settings["max_depth"])
 
 
-def initial_point(density: Callable, dim: int, rng: np.random.Generator) -> np.ndarray:
-    """A uniform draw on ``(-2, 2)^dim`` with a finite log density and gradient."""
+def initial_point(density: Callable, dim: int, rng: np.random.Generator,
+                  solver_failures: Callable[[], int] | None = None) -> np.ndarray:
+    """A uniform draw on ``(-2, 2)^dim`` with a finite log density and gradient.
+
+    Raises :class:`SolverError` when the soft Bellman solve failed at every try (counted by
+    ``solver_failures``), else :class:`InputError` (the density is -inf there: the prior's
+    support or the data).
+    """
+    before = solver_failures() if solver_failures else 0
     for _ in range(_INIT_TRIES):
         theta = rng.uniform(-INIT_RADIUS, INIT_RADIUS, size=dim)
         value, grad = density(theta)
         if np.isfinite(value) and np.all(np.isfinite(grad)):
             return theta
+    failed = (solver_failures() - before) if solver_failures else 0
+    if failed:
+        raise SolverError(
+            f"no initial point: the soft Bellman solve failed at {failed} of {_INIT_TRIES} "
+            f"points drawn uniformly in (-{INIT_RADIUS:g}, {INIT_RADIUS:g}) per parameter. "
+            "Try larger [solver] max_newton_steps or max_linear_iterations, a looser [solver] "
+            "tol, features rescaled to order 1, or a smaller discount")
     raise InputError(f"no finite log-posterior found in {_INIT_TRIES} initial points")
 
 
@@ -113,7 +127,8 @@ def _open(model, saved, seed, cfg, guard, stopper) -> Chain:
         return chain
     init_seed, chain_seed = seed.spawn(2)
     # The initial point is searched with the full density (as before checkpoints existed).
-    theta0 = initial_point(Guarded(model, stopper), model.dim, np.random.default_rng(init_seed))
+    theta0 = initial_point(Guarded(model, stopper), model.dim, np.random.default_rng(init_seed),
+                           lambda: model.solver_failures)
     return Chain.start(guard, theta0, cfg, chain_seed)
 
 

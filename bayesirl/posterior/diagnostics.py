@@ -18,6 +18,10 @@ EBFMI_MIN = 0.3
 # Betancourt (2017), "A conceptual introduction to HMC": any divergence signals a region the
 # integrator cannot resolve, which biases the estimates.
 DIVERGENCES_MAX = 0
+# Ours (no published threshold): a chain whose adapted step size is a millionth of another
+# chain's on the same posterior has stalled (seen: 1e-209 after the likelihood failed along
+# its warmup path), so its draws barely move whatever R-hat says.
+STEP_SIZE_RATIO_MIN = 1e-6
 
 
 class Diagnostics(NamedTuple):
@@ -64,6 +68,8 @@ def compute(idata: az.InferenceData, names: tuple[str, ...], fixed=()) -> Diagno
     else:
         ebfmi = np.full(post.sizes["chain"], np.nan)
     warn = _warnings(names, rhat, bulk, tail, div, ebfmi, set(fixed))
+    if "step_size" in stats:
+        warn = warn + _stalled(np.asarray(stats["step_size"].values, dtype=float))
     return Diagnostics(names, rhat, bulk, tail, div, ebfmi, warn)
 
 
@@ -83,3 +89,19 @@ def _warnings(names, rhat, bulk, tail, div, ebfmi, fixed=frozenset()) -> tuple[s
         out.append(f"E-BFMI < {EBFMI_MIN} in {int(np.sum(ebfmi < EBFMI_MIN))} chain(s): "
                    "poor exploration of the energy")
     return tuple(out)
+
+
+def _stalled(step_sizes: np.ndarray) -> tuple[str, ...]:
+    """A warning naming chains whose step size collapsed (``(chains, draws)`` step sizes)."""
+    if step_sizes.size == 0:
+        return ()
+    per_chain = np.median(step_sizes, axis=1)
+    top = np.max(per_chain, initial=0.0, where=np.isfinite(per_chain))
+    bad = [k for k, h in enumerate(per_chain)
+           if not (np.isfinite(h) and h > 0 and (top == 0 or h >= STEP_SIZE_RATIO_MIN * top))]
+    if not bad:
+        return ()
+    sizes = ", ".join(f"{per_chain[k]:.2g}" for k in bad)
+    return (f"step size collapsed in chain(s) {', '.join(map(str, bad))} ({sizes}; largest "
+            f"{top:.2g}): those chains barely moved, so their draws cannot be used; the "
+            "likelihood probably failed along their path (see solver failures)",)

@@ -67,6 +67,9 @@ def finish(model, records: list[ChainRecord | None], settings: dict, seed: int,
                                                                       settings["method"])
                for r in records]
     times = [float(r.meta["elapsed"]) if r is not None else 0.0 for r in records]
+    # Likelihood evaluations whose solve failed (treated as divergences or rejections).
+    settings = {**settings, "solver_failures": [
+        int(r.meta.get("solver_failures", 0)) if r is not None else 0 for r in records]}
     if complete:
         posterior = Posterior.from_chains(model, results, settings, seed=seed,
                                           wall_time=wall_time, chain_times=times)

@@ -138,8 +138,10 @@ class Posterior:
             q = np.percentile(x, [lo, hi])
             rows.append(f"{name:<14}{x.mean():9.3f}{x.std(ddof=1):8.3f}{q[0]:9.3f}{q[1]:9.3f}"
                         f"{d.rhat[k]:7.3f}{d.ess_bulk[k]:10.0f}{d.ess_tail[k]:10.0f}")
+        failed = sum(self.settings.get("solver_failures", ()))
         rows.append(f"{self.n_chains} chains x {self.n_draws} draws ({self.settings['method']}),"
-                    f" {d.divergences} divergent, {self.wall_time:.1f} s")
+                    f" {d.divergences} divergent, {self.wall_time:.1f} s"
+                    + (f", {failed} failed solves (rejected)" if failed else ""))
         rows += [f"warning: {w}" for w in d.warnings]
         return "\n".join(rows)
 

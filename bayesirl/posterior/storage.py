@@ -61,6 +61,8 @@ def problem_meta(model: PosteriorModel) -> dict:
     return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
             "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
             "tol": lik.tol, "gradient_rtol": getattr(lik, "gradient_rtol", None),
+            "max_newton_steps": getattr(lik, "max_newton_steps", None),
+            "max_linear_iterations": getattr(lik, "max_linear_iterations", None),
             "likelihood_rationality": lik.rationality,
             "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
 
@@ -85,16 +87,16 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
     demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
                                        np.split(const["demo_actions"].values, a_cut), who)
     lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"], q=pm["q"],
-                              tol=pm["tol"], **_gradient_rtol(pm))
+                              tol=pm["tol"], **_solver_settings(pm))
     spec = meta["model"]
     pooling = Pooling.from_spec(spec["pooling"]) if "pooling" in spec else None
     return make_model(lik, pooling=pooling, **PosteriorModel.parse_spec(spec))
 
 
-def _gradient_rtol(pm: dict) -> dict:
+def _solver_settings(pm: dict) -> dict:
     # Absent from older files and from likelihood wrappers without the setting: the default.
-    value = pm.get("gradient_rtol")
-    return {} if value is None else {"gradient_rtol": value}
+    keys = ("gradient_rtol", "max_newton_steps", "max_linear_iterations")
+    return {k: pm[k] for k in keys if pm.get(k) is not None}
 
 
 def write_netcdf(idata, path: Path) -> Path:

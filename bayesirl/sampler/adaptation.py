@@ -28,6 +28,12 @@ from bayesirl.sampler.integrators import (
     sample_momentum,
 )
 
+# Step sizes stay within exp(+-700), well inside the float range (exp(-745) underflows to 0,
+# and log(0) would raise): a density that accepts nothing (or everything) drives the
+# adaptation to these bounds, where the diagnostics report the chain as stalled.
+_LOG_STEP_MIN, _LOG_STEP_MAX = -700.0, 700.0
+STEP_MIN, STEP_MAX = math.exp(_LOG_STEP_MIN), math.exp(_LOG_STEP_MAX)
+
 __all__ = [
     "DualAveragingState",
     "Window",
@@ -115,7 +121,7 @@ def dual_averaging_update(
     log_step = state.mu - math.sqrt(count) / gamma * h_bar
     # Only a density that accepts everything (flat) or nothing drives x this far; the
     # clip keeps exp(x) finite instead of raising OverflowError.
-    log_step = min(max(log_step, -700.0), 700.0)
+    log_step = min(max(log_step, _LOG_STEP_MIN), _LOG_STEP_MAX)
     eta = count ** (-kappa)
     log_step_avg = eta * log_step + (1.0 - eta) * state.log_step_avg
     return DualAveragingState(log_step, log_step_avg, h_bar, state.mu, count)
@@ -352,6 +358,9 @@ def find_reasonable_step_size(
     for _ in range(max_iter):
         if not direction * ratio > -direction * math.log(2.0):
             break
-        step_size *= 2.0**direction
+        new = step_size * 2.0**direction
+        if not STEP_MIN <= new <= STEP_MAX:
+            break  # a step this small or large is itself the diagnosis (a stalled chain)
+        step_size = new
         ratio = log_ratio(step_size)
     return step_size

@@ -67,11 +67,12 @@ cells = """
 
 {_SETTINGS}'''
 
-MACHINE_TOML = f'''# bayesirl problem: when to replace a wearing machine (invented data).
+MACHINE_TOML = '''# bayesirl problem: when to replace a wearing machine (invented data).
 title = "machine replacement"
 
 [model]
-discount = 0.9
+# Monthly decisions: 0.999 a month is about 1.2% a year.
+discount = 0.999
 demonstrator = "soft"
 
 [arrays]
@@ -79,7 +80,23 @@ npz = "machine.npz"
 feature_names = ["wear", "replacement"]
 actions = ["keep", "replace"]
 
-{_SETTINGS}'''
+# Costs here run to tens of units (a replacement), so the prior is wider than the default.
+[prior]
+kind = "normal"
+scale = 25.0
+
+[rationality]
+value = 1.0
+
+# Wear and replacement costs are strongly correlated a posteriori (the data fix mostly
+# their ratio), which a dense mass matrix follows far better than a diagonal one.
+[sampler]
+chains = 4
+draws = 600
+warmup = 600
+seed = 0
+dense_mass = true
+'''
 
 
 class Example(NamedTuple):
@@ -122,16 +139,18 @@ def _write_machine(folder: Path) -> tuple[Path, Path]:
         np.savez(fh, transitions=p, features=phi, start=start)
     problem_path = write_text(folder / "machine.toml", MACHINE_TOML)
     problem = read_problem(problem_path)
-    demos = simulate(problem.mdp, MACHINE_WEIGHTS, episodes=30, length=40, seed=2)
+    # 40 machines observed monthly for ten years each.
+    demos = simulate(problem.mdp, MACHINE_WEIGHTS, episodes=40, length=120, seed=3)
     return problem_path, write_demonstrations(folder / "operators.jsonl", demos, problem,
-                                              [f"machine-{k + 1}" for k in range(30)])
+                                              [f"machine-{k + 1}" for k in range(40)])
 
 
 EXAMPLES = {
     "park": Example("park", "a walker's routes across a park grid with mud, slopes, shade "
                             "and a water fountain (4 features, 42 cells)", _write_park),
     "machine": Example("machine", "when to replace a machine as it wears: keep or replace "
-                                  "at 10 wear levels (a dynamic discrete choice)",
+                                  "each month at 80 wear levels, discount 0.999 (a dynamic "
+                                  "discrete choice)",
                        _write_machine),
     "walkers": Example("walkers", "four walkers in the park who agree on mud and slope but "
                                   "differ on shade (partial pooling of demonstrators)",

@@ -1,9 +1,11 @@
 """An invented scenario: when to replace a machine as it wears (for demos and tests only).
 
-A dynamic discrete-choice problem without a map. Each period an operator sees the wear level
-``x`` (0 = new, ``WEAR_LEVELS - 1`` = worn out) and either keeps the machine, paying a running
-cost that grows with wear, or replaces it at a fixed price. Wear then grows by 0, 1 or 2 levels
-at random; a replaced machine starts again from level 0. Nothing here is measured data.
+A dynamic discrete-choice problem without a map, at the discounts such problems use. Each
+month an operator sees the wear level ``x`` (0 = new, ``WEAR_LEVELS - 1`` = worn out) and
+either keeps the machine, paying a running cost that grows with wear, or replaces it at a
+fixed price. Wear then grows by 0, 1 or 2 levels at random; a replaced machine starts again
+from level 0. Months are discounted by 0.999 (about 1.2% a year), so a decision weighs the
+next several hundred months. Nothing here is measured data.
 """
 
 from __future__ import annotations
@@ -12,14 +14,16 @@ import numpy as np
 
 from bayesirl.model import TabularMDP
 
-WEAR_LEVELS = 10
+WEAR_LEVELS = 80
+DISCOUNT = 0.999  # per month
 ACTIONS = ("keep", "replace")
 FEATURES = ("wear", "replacement")
-# Probability that wear grows by 0, 1 or 2 levels in one period (invented).
-WEAR_STEPS = (0.35, 0.45, 0.2)
-# Weights used to simulate the operator: running a worn-out machine costs 6 a period, a
-# replacement 4, so replacing becomes likelier than keeping from about wear level 3.
-MACHINE_WEIGHTS = np.array([-6.0, -4.0])
+# Probability that wear grows by 0, 1 or 2 levels in one month (invented).
+WEAR_STEPS = (0.5, 0.4, 0.1)
+# Weights used to simulate the operators: running a worn-out machine costs 2 a month more
+# than a new one, a replacement 15; most replacements then happen at wear 17-30 (about three
+# years after the last one).
+MACHINE_WEIGHTS = np.array([-2.0, -15.0])
 
 
 def machine_arrays(levels: int = WEAR_LEVELS) -> tuple[np.ndarray, np.ndarray]:
@@ -35,7 +39,7 @@ def machine_arrays(levels: int = WEAR_LEVELS) -> tuple[np.ndarray, np.ndarray]:
     return p, phi
 
 
-def machine_mdp(discount: float = 0.9, levels: int = WEAR_LEVELS) -> TabularMDP:
+def machine_mdp(discount: float = DISCOUNT, levels: int = WEAR_LEVELS) -> TabularMDP:
     """The replacement problem; every machine starts new."""
     p, phi = machine_arrays(levels)
     start = np.zeros(levels)

@@ -25,6 +25,7 @@ class Dynamics(NamedTuple):
     by_state: sp.csr_matrix  # the same matrix as a scipy object (its C mat-vec is fastest)
     by_action: sp.csr_matrix  # rows reordered to a*S + s, so E[V'] comes out as (A, S)
     dense: np.ndarray | None  # (A, S, S) copy for small problems (see DENSE_MAX_STATES)
+    max_row_nnz: int  # most successors of any (s, a): the rounding bound of a backup uses it
 
     @classmethod
     def from_csr(cls, matrix: sp.csr_matrix, n_actions: int) -> Dynamics:
@@ -45,6 +46,7 @@ class Dynamics(NamedTuple):
             matrix,
             matrix[order].tocsr(),
             dense,
+            int(np.diff(matrix.indptr).max(initial=1)),
         )
 
     def expected_next(self, values: np.ndarray) -> np.ndarray:

@@ -10,6 +10,14 @@ Both methods stop on the span of the Bellman residual: the backup is monotone an
 ``T(V) + g/(1-g) * [min D, max D]`` with ``D = T(V) - V``. We stop when that box is narrower
 than the tolerance and return its midpoint.
 
+Near discount 1 two things matter (both derived in :func:`rounding_factor`). The iteration
+works on *relative* values: the start and every Newton iterate are re-centred, because the
+policy ignores constants and a constant offset (``|r| / (1 - g)``, or the offset a warm start
+from far-away weights carries) only adds rounding. And the floor of the stopping rule is the
+span that rounding alone leaves in a computed residual, scaled by the same ``g/(1-g)`` as the
+span itself; comparing the scaled span with an unscaled floor made the target unreachable
+for ``g >= 0.999``.
+
 Internally arrays are action-major ``(A, S)``: the reductions over actions then run over
 contiguous rows and vectorise. The solution exposes ``(S, A)`` views.
 """
@@ -38,6 +46,7 @@ class SoftSolution(NamedTuple):
     log_policy_by_action: np.ndarray  # (A, S), Q - V, so that tiny probabilities keep digits
     iterations: int  # backups (value iteration) or Newton steps
     matvecs: int  # CSR sweeps spent, backups included
+    bound: float = float("nan")  # width of the box that holds the fixed point (see module)
 
     @property
     def q(self) -> np.ndarray:
@@ -74,28 +83,58 @@ def soft_backup(
     return q.T, new_values
 
 
-def _tolerance(tol: float, values: np.ndarray) -> float:
-    # Absolute span tolerance, widened near the floating-point floor of |V| (for discount
-    # near 1, |V| ~ r/(1-g) and the residual cannot get below eps * |V|).
-    return max(tol, 64 * np.finfo(float).eps * float(np.max(np.abs(values), initial=1.0)))
+_EPS = float(np.finfo(float).eps)
+
+
+def rounding_factor(max_row_nnz: int, n_actions: int) -> float:
+    """``c`` such that rounding alone leaves a residual span of at most ``c * eps * M``.
+
+    ``M`` is the largest of ``|Q|``, ``|T(V)|`` and ``|V|``. Per entry of ``D = T(V) - V``:
+    ``E[V'|s,a]`` sums ``k = max_row_nnz`` products with weights summing to one, error
+    ``<= (k + 1) eps M`` (recursive summation, Higham, *Accuracy and Stability of Numerical
+    Algorithms*, 2nd ed., sec. 4.2); adding ``r`` and scaling by ``g``, ``2 eps M``; the
+    log-sum-exp over ``A`` actions adds ``(A + 2) eps`` from the sum of exponentials (our
+    exponential is within 1.5 ulp) plus ``eps M`` for adding the maximum back; the final
+    subtraction ``eps M``: ``(k + A + 7) eps M`` per entry. An iterate that is the exact
+    solution up to its own rounding (``eps M`` per entry) has a true residual of at most
+    ``(1 + g) eps M <= 2 eps M`` per entry. The computed span is then at most twice the sum,
+    ``2 (k + A + 9) eps M``. A worst-case bound (typical rounding is far smaller), so a
+    converged Newton iterate reaches it.
+    """
+    return 2.0 * (max_row_nnz + n_actions + 9)
+
+
+def _converged(span: float, scale: float, tol: float, factor: float, size: float) -> bool:
+    # The box g/(1-g) * span must be narrower than tol, unless rounding (factor * eps * size)
+    # already dominates the span: then the box is as narrow as float64 can make it.
+    return scale * span <= max(tol, scale * factor * _EPS * size)
+
+
+def _size(q, new_values, values) -> float:
+    return max(float(np.abs(q).max()), float(np.abs(new_values).max()),
+               float(np.abs(values).max()))
 
 
 def _finish(q, new_values, policy, residual, discount, iterations, matvecs) -> SoftSolution:
     # q was computed from the last input V, new_values = T(V). The fixed point is
     # T(V) + shift up to the tolerance; Q moves by g * (mid residual + shift) to match it.
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
-    mid = 0.5 * (residual.max() + residual.min())
+    hi, lo = residual.max(), residual.min()
+    mid = 0.5 * (hi + lo)
     shift = scale * mid
     return SoftSolution(
         new_values + shift, q + discount * (mid + shift), policy, q - new_values,
-        iterations, matvecs,
+        iterations, matvecs, float(scale * (hi - lo)),
     )
 
 
 def _start(dyn: Dynamics, reward: np.ndarray, values0):
     reward_am = np.ascontiguousarray(reward.T)
-    values = np.zeros(dyn.n_states) if values0 is None else np.array(values0, dtype=float)
-    return reward_am, values
+    if values0 is None:
+        return reward_am, np.zeros(dyn.n_states)
+    values = np.array(values0, dtype=float)
+    # Relative values: drop the constant a warm start carries (see the module docstring).
+    return reward_am, values - values.mean()
 
 
 def soft_value_iteration(
@@ -109,12 +148,14 @@ def soft_value_iteration(
     """Soft value iteration with the span stopping rule, warm-started from ``values0``."""
     reward_am, values = _start(dyn, reward, values0)
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    factor = rounding_factor(dyn.max_row_nnz, dyn.n_actions)
     for it in range(1, max_iter + 1):
         q, new_values, policy = _backup(dyn, reward_am, discount, values)
         residual = new_values - values
-        if scale * (residual.max() - residual.min()) <= _tolerance(tol, new_values):
+        span = residual.max() - residual.min()
+        if _converged(span, scale, tol, factor, _size(q, new_values, values)):
             return _finish(q, new_values, policy, residual, discount, it, it)
-        values = new_values
+        values = new_values - new_values.mean()
     raise SolverError(
         f"soft value iteration: span of the Bellman residual still "
         f"{residual.max() - residual.min():.3e} after {max_iter} backups"
@@ -144,6 +185,8 @@ def soft_newton(
     if dyn.dense is not None:
         return _newton_dense(dyn, reward_am, discount, values, tol, max_iter)
     scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    factor = rounding_factor(dyn.max_row_nnz, dyn.n_actions)
+    guesses = [g - g.mean() for g in guesses]
     first = _best_start(dyn, reward_am, discount, [values, *guesses])
     matvecs = len(guesses)
     for it in range(1, max_iter + 1):
@@ -154,13 +197,14 @@ def soft_newton(
         matvecs += 1
         residual = new_values - values
         span = residual.max() - residual.min()
-        if scale * span <= _tolerance(tol, new_values):
+        size = _size(q, new_values, values)
+        if _converged(span, scale, tol, factor, size):
             return _finish(q, new_values, policy, residual, discount, it, matvecs)
         # Remove the constant part: the policy ignores it and the final shift restores it.
         centred = residual - residual.mean()
         # Forcing term: shrinks with the residual (superlinear convergence), but never asks
         # for more than the stopping rule needs after this step.
-        needed = 0.1 * _tolerance(tol, new_values) / (scale * span)
+        needed = 0.1 * max(tol, scale * factor * _EPS * size) / (scale * span)
         forcing = min(1e-2, max(1e-12, needed, span / (1.0 + np.abs(new_values).max())))
         step, used = solve_discounted(
             dyn.policy_matrix_by_action(policy), discount, centred, x0=None, rtol=forcing,
@@ -168,6 +212,7 @@ def soft_newton(
         )
         matvecs += used
         values = values + step
+        values -= values.mean()
     raise SolverError(
         f"soft Newton: span of the Bellman residual still {span:.3e} after {max_iter} steps"
     )
@@ -187,9 +232,10 @@ def _best_start(dyn, reward_am, discount, starts):
 
 
 def _newton_dense(dyn, reward_am, discount, values, tol, max_iter) -> SoftSolution:
-    values, q, policy, log_policy, it = soft_newton_dense(
-        dyn.dense, reward_am, float(discount), values, float(tol), int(max_iter)
+    factor = rounding_factor(dyn.max_row_nnz, dyn.n_actions)
+    values, q, policy, log_policy, it, bound = soft_newton_dense(
+        dyn.dense, reward_am, float(discount), values, float(tol), int(max_iter), factor
     )
     if it < 0:
         raise SolverError(f"soft Newton (dense): not converged after {max_iter} steps")
-    return SoftSolution(values, q, policy, log_policy, it, it)
+    return SoftSolution(values, q, policy, log_policy, it, it, float(bound))

@@ -53,7 +53,7 @@ def test_the_json_has_every_field_of_a_row(folder):
         assert row["pss_processes"] == 3
         assert 0 < row["peak_total_pss_bytes"] < row["peak_sum_bytes"]
     prof = row["profile"]
-    assert prof["source"] == "wrapped solve_discounted" and not prof["dense"]
+    assert prof["source"] == "lik.work" and not prof["dense"]
     assert prof["newton_steps"] > 0 and prof["value_matvecs"] > 0 and prof["adjoint_matvecs"] > 0
 
 

@@ -76,8 +76,8 @@ def _dense_problem(seed, n_s=20, n_a=3):
 def test_dense_newton_matches_reference(discount):
     p, reward = _dense_problem(5)
     v0 = np.zeros(p.shape[1])
-    got = soft_newton_dense(p, reward, discount, v0, 1e-10, 50)
-    ref = soft_newton_dense_ref(p, reward, discount, v0, 1e-10, 50)
+    got = soft_newton_dense(p, reward, discount, v0, 1e-10, 50, 30.0)
+    ref = soft_newton_dense_ref(p, reward, discount, v0, 1e-10, 50, 30.0)
     assert got[4] == ref[4] > 0
     for a, b in zip(got[:4], ref[:4], strict=True):
         np.testing.assert_allclose(a, b, rtol=1e-10, atol=1e-10)
@@ -85,12 +85,12 @@ def test_dense_newton_matches_reference(discount):
 
 def test_dense_newton_reports_non_convergence():
     p, reward = _dense_problem(6)
-    assert soft_newton_dense(p, reward, 0.99, np.zeros(p.shape[1]), 1e-10, 1)[4] == -1
+    assert soft_newton_dense(p, reward, 0.99, np.zeros(p.shape[1]), 1e-10, 1, 30.0)[4] == -1
 
 
 def test_dense_adjoint_matches_reference():
     p, reward = _dense_problem(7)
-    pi = soft_newton_dense(p, reward, 0.9, np.zeros(p.shape[1]), 1e-10, 50)[2]
+    pi = soft_newton_dense(p, reward, 0.9, np.zeros(p.shape[1]), 1e-10, 50, 30.0)[2]
     rho = np.random.default_rng(8).normal(size=p.shape[1])
     np.testing.assert_allclose(adjoint_dense(p, pi, 0.9, rho), adjoint_dense_ref(p, pi, 0.9, rho),
                                rtol=1e-10, atol=1e-12)
