@@ -20,6 +20,8 @@ _LAZY = {
     "simulate": "bayesirl.model",
     "Posterior": "bayesirl.posterior",
     "sample": "bayesirl.posterior",
+    "Pooling": "bayesirl.posterior.groups",
+    "HalfNormal": "bayesirl.priors",
     "Laplace": "bayesirl.priors",
     "LogNormal": "bayesirl.priors",
     "Normal": "bayesirl.priors",
@@ -41,9 +43,11 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "BoltzmannLikelihood",
+    "HalfNormal",
     "Laplace",
     "LogNormal",
     "Normal",
+    "Pooling",
     "Posterior",
     "Uniform",
     "sample",

@@ -195,8 +195,47 @@ class LogNormal:
         return np.exp(mu + s * rng.standard_normal(n))
 
 
-PRIORS = {cls.kind: cls for cls in (Normal, Laplace, Uniform, LogNormal)}
-Prior = Normal | Laplace | Uniform | LogNormal
+@dataclass(frozen=True)
+class HalfNormal:
+    """Half-normal prior ``|N(0, scale^2)|`` for positive scales (such as the spread of
+    demonstrators' weights under partial pooling), per coordinate.
+
+    Sampled on ``z = log(x)``: ``log p(z) = log(2 / (scale sqrt(2 pi))) - x^2 / (2 scale^2) + z``
+    (the last term is the Jacobian ``dx/dz = x``).
+    """
+
+    scale: float | np.ndarray = 1.0
+
+    kind = "halfnormal"
+
+    def params(self, n: int) -> tuple[np.ndarray]:
+        """``(scale,)`` broadcast to length ``n`` and checked."""
+        scale = _vector(self.scale, n, "scale")
+        if np.any(scale <= 0):
+            raise InputError(f"prior: HalfNormal scale must be positive; got {scale.tolist()}")
+        return (scale,)
+
+    transform = LogNormal.transform
+    dtransform = LogNormal.dtransform
+
+    def log_density(self, z: np.ndarray) -> tuple[float, np.ndarray]:
+        """Density of ``z = log(x)`` and its gradient."""
+        (scale,) = self.params(z.shape[0])
+        u = np.exp(z) / scale
+        lp = np.sum(0.5 * np.log(2.0 / np.pi) - np.log(scale) - 0.5 * u * u + z)
+        return float(lp), 1.0 - u * u
+
+    def variance(self, n: int) -> np.ndarray:
+        """Variance of ``x``: ``scale^2 (1 - 2 / pi)``."""
+        return self.params(n)[0] ** 2 * (1.0 - 2.0 / np.pi)
+
+    def draw(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """One draw."""
+        return self.params(n)[0] * np.abs(rng.standard_normal(n))
+
+
+PRIORS = {cls.kind: cls for cls in (Normal, Laplace, Uniform, LogNormal, HalfNormal)}
+Prior = Normal | Laplace | Uniform | LogNormal | HalfNormal
 
 
 def to_json(prior) -> str:

@@ -19,6 +19,7 @@ LAYERS = {
     "solver": 2,
     "model": 3,
     "likelihood": 4,
+    "evidence": 4.5,  # sums likelihood terms; below the sampler (see DEVELOPERS.md)
     "sampler": 5,
     "posterior": 6,
     "priors": 5,

@@ -33,7 +33,8 @@ def _load(problem_path, demos_path):
 
 def _sample_kwargs(problem, settings: dict, quiet: bool) -> dict:
     return {"prior": problem.prior, "rationality": problem.rationality,
-            "pin": problem.pin or None, "progress": not quiet, **settings}
+            "pin": problem.pin or None, "progress": not quiet, "pooling": problem.pooling,
+            **settings}
 
 
 def fit_command(args) -> int:
@@ -139,7 +140,8 @@ def render(args, out: RunFolder, posterior, summary: dict, action_names=None) ->
     except KeyboardInterrupt:
         acknowledge()
         return _report_skipped(out)
-    say(args, f"wrote {out.root}/posterior.nc, summary.json and report.html")
+    made = "report.html" if out.report.exists() else "demonstrators.png"  # separate rewards
+    say(args, f"wrote {out.root}/posterior.nc, summary.json and {made}")
     return 0
 
 

@@ -95,18 +95,27 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
     ``suggestions``, ``action_names``)."""
     from bayesirl.report import ambiguity
 
+    drop = ("note", "pid") if summary.get("complete") else ("pid",)
+    summary = {k: v for k, v in summary.items() if k not in drop}
+    if _separate(posterior):
+        # No population model: the report's verdicts would judge the plain mean of G
+        # independent weights against one weight's prior (contraction overstated G-fold).
+        summary.update(level=level, note="separate rewards per demonstrator: no report.html "
+                       "(see demonstrators in this file and demonstrators.png)")
+        _demonstrators(run, posterior, level, summary, quiet)
+        write_json(run.summary, summary)
+        return summary
     report = ambiguity(posterior, level=level, **options)
     report.to_html(run.report)
     if not summary.get("complete"):
         _mark_incomplete(run.report, summary)
-    drop = ("note", "pid") if summary.get("complete") else ("pid",)
-    summary = {k: v for k, v in summary.items() if k not in drop}
     summary.update(level=level, report=report.as_dict())
-    write_json(run.summary, summary)
     if not quiet:
         if not summary.get("complete"):
             print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
+    _demonstrators(run, posterior, level, summary, quiet)
+    write_json(run.summary, summary)
     return summary
 
 
@@ -121,6 +130,31 @@ def _mark_incomplete(path: Path, summary: dict) -> None:
     banner = (f'<p style="border:2px solid #b00;padding:.5em;color:#b00">'
               f"{html.escape(INCOMPLETE.format(done=summary.get('draws_done')))}</p>")
     write_text(path, text[:at] + banner + text[at:])
+
+
+def _separate(posterior) -> bool:
+    groups = getattr(posterior, "groups", None)
+    return groups is not None and groups["pooling"] == "separate"
+
+
+def _demonstrators(run: RunFolder, posterior, level: float, summary: dict,
+                   quiet: bool) -> None:
+    """Several demonstrators: population, spread and each one's weights (summary.json,
+    printed) and their forest plot (demonstrators.png)."""
+    from bayesirl.posterior.group_summary import demonstrator_summary, render
+
+    record = demonstrator_summary(posterior, level)
+    if record is None:
+        return
+    summary["demonstrators"] = record
+    from bayesirl.report.forest import forest_figure
+
+    forest_figure(record).savefig(run.root / "demonstrators.png")
+    if not quiet:
+        what = ("the population mean" if record["pooling"] == "partial"
+                else "the plain mean of the demonstrators' weights")
+        print(f"\n(the table above and report.html describe {what}; each demonstrator:)")
+        print(render(record))
 
 
 def _earlier_draws(run: RunFolder) -> int:

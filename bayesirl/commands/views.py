@@ -7,6 +7,7 @@ import json
 import sys
 from pathlib import Path
 
+from bayesirl.commands.demonstrators import demonstrator_lines
 from bayesirl.commands.runs import say, write_report
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
@@ -85,6 +86,11 @@ def report_command(args) -> int:
     if not summary.get("complete"):
         print(f"warning: {run.root} is an interrupted run; the report covers only the draws "
               "made so far", file=sys.stderr)
+    groups = getattr(posterior, "groups", None)
+    if groups is not None and groups["pooling"] == "separate":
+        raise InputError(f"{run.root}: separate rewards per demonstrator have no population "
+                         "to report on; see summary.json (demonstrators) and "
+                         "demonstrators.png")
     tolerance = check_tolerance(getattr(args, "tolerance", None))
     n_states = posterior.model.likelihood.mdp.n_states
     settings = {"level": args.level, "tolerance": tolerance,
@@ -133,6 +139,10 @@ def suggest_command(args) -> int:
         print("warning: the run's sampler diagnostics failed "
               f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
               "may be wrong: run the fit longer first", file=sys.stderr)
+    if getattr(posterior, "groups", None) is not None:
+        raise InputError(f"{run.root}: suggestions for a run with several demonstrators "
+                         "(pooling separate or partial) are not available yet; the designer "
+                         "would treat every episode as one demonstrator's")
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
               "budget": args.budget, "target": args.target, "seed": args.seed,
@@ -169,6 +179,8 @@ def check_command(args) -> int:
         return 0
     demos = read_demonstrations(args.demonstrations, problem)
     print(f"{args.demonstrations}: ok - {demos.n_episodes} episodes, {demos.n_steps} steps")
+    for line in demonstrator_lines(problem, demos):
+        print(line)
     found = structural.findings(mdp, demos)
     if not found:
         print("structural findings: none (every weight can in principle be learned from "

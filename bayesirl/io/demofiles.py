@@ -1,10 +1,12 @@
 """Demonstration files: CSV with one row per step, or JSON Lines with one episode per line.
 
-CSV columns: ``episode, step, state, action`` (or ``row, col`` instead of ``state`` on a map).
-Steps of an episode are consecutive rows numbered 0, 1, 2, ...; the last row of an episode may
-leave ``action`` empty to record the state the episode ended in. JSON Lines: one object per
-line, ``{"episode": id, "states": [...] or "cells": [[r, c], ...], "actions": [...]}``.
-Actions are names (from the problem) or indices.
+CSV columns: ``episode, step, state, action`` (or ``row, col`` instead of ``state`` on a map),
+optionally ``demonstrator`` (who demonstrated the episode: the same non-empty name on each of
+its rows). Steps of an episode are consecutive rows numbered 0, 1, 2, ...; the last row of an
+episode may leave ``action`` empty to record the state the episode ended in. JSON Lines: one
+object per line, ``{"episode": id, "demonstrator": name (optional), "states": [...] or
+"cells": [[r, c], ...], "actions": [...]}``; either every episode names its demonstrator or
+none does. Actions are names (from the problem) or indices.
 """
 
 from __future__ import annotations
@@ -30,6 +32,7 @@ class _Episode:
 
     def __init__(self, name: str) -> None:
         self.name, self.states, self.actions, self.lines = name, [], [], []
+        self.who: str | None = None  # the demonstrator, when the file names one
 
 
 def read_demonstrations(path, problem) -> Demonstrations:
@@ -64,8 +67,10 @@ def read_demonstrations(path, problem) -> Demonstrations:
                          ".jsonl or .ndjson")
     for ep in episodes:
         _check_episode(path, ep, problem)
+    who = [e.who for e in episodes]
     return Demonstrations.from_arrays([np.asarray(e.states, dtype=np.int64) for e in episodes],
-                                      [np.asarray(e.actions, dtype=np.int64) for e in episodes])
+                                      [np.asarray(e.actions, dtype=np.int64) for e in episodes],
+                                      None if who[0] is None else who)
 
 
 def _state(path, line, problem, value=None, row=None, col=None) -> int:
@@ -140,9 +145,10 @@ def _csv_rows(path: Path, reader, problem) -> list[_Episode]:
     header = [h.strip().lower() for h in next(reader)]
     base = {"episode", "step", "action"}
     layouts = (base | {"state"}, base | {"row", "col"})
-    if set(header) not in layouts or len(header) != len(set(header)):
+    if set(header) - {"demonstrator"} not in layouts or len(header) != len(set(header)):
         raise InputError(f"{path} line 1: columns {', '.join(header)}; expected episode, "
-                         "step, state, action (or episode, step, row, col, action)")
+                         "step, state, action (or episode, step, row, col, action), and "
+                         "optionally demonstrator")
     col = {h: i for i, h in enumerate(header)}
     episodes: dict[str, _Episode] = {}
     current, ended = None, False
@@ -161,6 +167,8 @@ def _csv_rows(path: Path, reader, problem) -> list[_Episode]:
                 raise InputError(f"{path} line {line}: episode {name!r} continues after "
                                  "another episode; keep each episode's rows together")
             current, ended = episodes.setdefault(name, _Episode(name)), False
+        if "demonstrator" in col:
+            _csv_demonstrator(path, line, current, get["demonstrator"])
         step = _whole(path, line, "step", get["step"])
         if ended or step != len(current.states):
             raise InputError(f"{path} line {line}: episode {name!r} step {get['step']}; "
@@ -180,6 +188,16 @@ def _csv_rows(path: Path, reader, problem) -> list[_Episode]:
     return list(episodes.values())
 
 
+def _csv_demonstrator(path, line, episode: _Episode, who: str) -> None:
+    if not who:
+        raise InputError(f"{path} line {line}: empty demonstrator; name who demonstrated "
+                         f"episode {episode.name!r} on each of its rows")
+    if episode.who is not None and who != episode.who:
+        raise InputError(f"{path} line {line}: episode {episode.name!r} has demonstrator "
+                         f"{who!r} here but {episode.who!r} on its earlier rows")
+    episode.who = who
+
+
 def _read_jsonl(path: Path, text: str, problem) -> list[_Episode]:
     episodes, names = [], set()
     for line, raw in enumerate(text.splitlines(), start=1):
@@ -197,6 +215,11 @@ def _read_jsonl(path: Path, text: str, problem) -> list[_Episode]:
         if ep.name in names:
             raise InputError(f"{path} line {line}: episode {ep.name!r} appears more than once")
         names.add(ep.name)
+        if episodes and (ep.who is None) != (episodes[0].who is None):
+            raise InputError(f"{path} line {line}: " + (
+                "no demonstrator, while earlier episodes name theirs" if ep.who is None else
+                "names a demonstrator, while earlier episodes do not")
+                + "; name the demonstrator of every episode or of none")
         episodes.append(ep)
     return episodes
 
@@ -205,15 +228,22 @@ def _jsonl_episode(path, line, obj, problem, k) -> _Episode:
     if not isinstance(obj, dict):
         raise InputError(f"{path} line {line}: expected an object with states (or cells) and "
                          f"actions; got {type(obj).__name__}")
-    extra = set(obj) - {"episode", "states", "cells", "actions"}
+    extra = set(obj) - {"episode", "demonstrator", "states", "cells", "actions"}
     if extra or ("states" in obj) == ("cells" in obj) or "actions" not in obj:
-        raise InputError(f"{path} line {line}: keys {sorted(obj)}; expected episode (optional),"
-                         " actions and exactly one of states or cells")
+        raise InputError(f"{path} line {line}: keys {sorted(obj)}; expected episode and "
+                         "demonstrator (both optional), actions and exactly one of states or "
+                         "cells")
     name = obj.get("episode", k)
     if isinstance(name, bool) or not isinstance(name, str | int):
         raise InputError(f"{path} line {line}: episode id {name!r} is not a string or a "
                          "whole number")
     ep = _Episode(str(name))
+    if "demonstrator" in obj:
+        who = obj["demonstrator"]
+        if not isinstance(who, str) or not who.strip():
+            raise InputError(f"{path} line {line}: demonstrator must be a non-empty name; "
+                             f"got {who!r}")
+        ep.who = who.strip()
     seq_key = "states" if "states" in obj else "cells"
     for key in (seq_key, "actions"):
         if not isinstance(obj[key], list):
@@ -244,10 +274,11 @@ def write_demonstrations(path, demos: Demonstrations, problem, names=None) -> Pa
     path = Path(path)
     names = names or [f"episode-{k + 1}" for k in range(demos.n_episodes)]
     grid = problem.mdp.grid_shape
+    who = demos.demonstrators
     if path.suffix.lower() in JSONL_SUFFIXES:
         lines = []
-        for name, (s, a) in zip(names, demos.episodes, strict=True):
-            obj = {"episode": name}
+        for k, (name, (s, a)) in enumerate(zip(names, demos.episodes, strict=True)):
+            obj = {"episode": name} | ({} if who is None else {"demonstrator": who[k]})
             if grid:
                 obj["cells"] = [list(divmod(int(x), grid[1])) for x in s]
             else:
@@ -257,11 +288,12 @@ def write_demonstrations(path, demos: Demonstrations, problem, names=None) -> Pa
         return write_text(path, "\n".join(lines) + "\n")
     out = io.StringIO()
     w = csv.writer(out, lineterminator="\n")
-    w.writerow(["episode", "step", "row", "col", "action"] if grid
-               else ["episode", "step", "state", "action"])
-    for name, (s, a) in zip(names, demos.episodes, strict=True):
+    w.writerow((["episode", "step", "row", "col", "action"] if grid
+                else ["episode", "step", "state", "action"])
+               + ([] if who is None else ["demonstrator"]))
+    for k, (name, (s, a)) in enumerate(zip(names, demos.episodes, strict=True)):
         for t, state in enumerate(s):
             where = list(divmod(int(state), grid[1])) if grid else [int(state)]
             act = problem.action_label(int(a[t])) if t < len(a) else ""
-            w.writerow([name, t, *where, act])
+            w.writerow([name, t, *where, act] + ([] if who is None else [who[k]]))
     return write_text(path, out.getvalue())

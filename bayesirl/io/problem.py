@@ -14,12 +14,14 @@ from pathlib import Path
 from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml, path_argument
+from bayesirl.io.pooling import pooling_from
 from bayesirl.io.settings import prior_from, rationality_from, sampler_from, solver_from
 from bayesirl.model import TabularMDP
+from bayesirl.posterior.groups import Pooling
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "solver"}
+            "solver", "pooling"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -40,6 +42,7 @@ class Problem:
     solver : keyword arguments for :class:`bayesirl.BoltzmannLikelihood` (numerical settings)
     source : the problem file
     blocked : states that demonstrations may never visit (blocked map cells)
+    pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
     """
 
     mdp: TabularMDP
@@ -54,6 +57,7 @@ class Problem:
     world: str = "arrays"
     blocked: frozenset = field(default_factory=frozenset)
     solver: dict = field(default_factory=dict)
+    pooling: Pooling = field(default_factory=Pooling)
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -139,4 +143,5 @@ def read_problem(path) -> Problem:
         sampler=sampler_from(top.table("sampler", {})), source=path,
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
         solver=solver_from(top.table("solver", {})),
+        pooling=pooling_from(top.table("pooling", {}), features),
     )

@@ -26,10 +26,12 @@ class Demonstrations:
     :meth:`check` (the likelihood and simulation call it).
     """
 
-    def __init__(self, episodes: Sequence[tuple[np.ndarray, np.ndarray]]) -> None:
+    def __init__(self, episodes: Sequence[tuple[np.ndarray, np.ndarray]],
+                 demonstrators: Sequence[str] | None = None) -> None:
         if len(episodes) == 0:
             raise InputError("demonstrations: the set is empty; give at least one episode")
         self.episodes = tuple((s, a) for s, a in episodes)
+        self.demonstrators = _labels(demonstrators, len(self.episodes))
         lengths = [a.shape[0] for _, a in self.episodes]
         self.lengths = np.asarray(lengths, dtype=np.int64)
         self.steps = Steps(
@@ -40,8 +42,12 @@ class Demonstrations:
         )
 
     @classmethod
-    def from_arrays(cls, states_list, actions_list) -> Demonstrations:
-        """One episode per ``(states, actions)`` pair of integer sequences."""
+    def from_arrays(cls, states_list, actions_list, demonstrators=None) -> Demonstrations:
+        """One episode per ``(states, actions)`` pair of integer sequences.
+
+        ``demonstrators``, if given, names who demonstrated each episode (one non-empty
+        string per episode); without it every episode is from one unnamed demonstrator.
+        """
         states_list, actions_list = list(states_list), list(actions_list)
         if len(states_list) != len(actions_list):
             raise InputError(
@@ -60,7 +66,7 @@ class Demonstrations:
                     f"{s_arr.shape[0]} states; expected {a_arr.shape[0]} or {a_arr.shape[0] + 1}"
                 )
             episodes.append((s_arr, a_arr))
-        return cls(episodes)
+        return cls(episodes, demonstrators)
 
     @property
     def n_episodes(self) -> int:
@@ -78,7 +84,26 @@ class Demonstrations:
         return np.asarray([s[0] for s, _ in self.episodes], dtype=np.int64)
 
     def __repr__(self) -> str:
-        return f"Demonstrations(episodes={self.n_episodes}, steps={self.n_steps})"
+        who = "" if self.demonstrators is None else f", demonstrators={len(self.groups())}"
+        return f"Demonstrations(episodes={self.n_episodes}, steps={self.n_steps}{who})"
+
+    def groups(self) -> dict[str, np.ndarray]:
+        """Episode indices of each named demonstrator, in order of first appearance.
+
+        Without names, one group ``""`` holding every episode.
+        """
+        if self.demonstrators is None:
+            return {"": np.arange(self.n_episodes)}
+        out: dict[str, list[int]] = {}
+        for k, name in enumerate(self.demonstrators):
+            out.setdefault(name, []).append(k)
+        return {name: np.asarray(ks, dtype=np.int64) for name, ks in out.items()}
+
+    def subset(self, episodes) -> Demonstrations:
+        """The demonstrations of the given episode indices (names kept)."""
+        idx = [int(k) for k in episodes]
+        names = None if self.demonstrators is None else [self.demonstrators[k] for k in idx]
+        return Demonstrations([self.episodes[k] for k in idx], names)
 
     def check(self, mdp) -> None:
         """Check ranges, horizon and every recorded transition against ``mdp``.
@@ -107,6 +132,22 @@ class Demonstrations:
                     f"demonstrations: episode {k} step {t}: the dynamics give probability 0 to "
                     f"s={int(s[t])} --a={int(a[t])}--> s'={int(s[t + 1])}"
                 )
+
+
+def _labels(names, n: int) -> tuple[str, ...] | None:
+    if names is None:
+        return None
+    if isinstance(names, str | bytes):
+        raise InputError("demonstrations: demonstrators must be one name per episode, "
+                         f"not a single string; got {names!r}")
+    names = list(names)
+    if len(names) != n:
+        raise InputError(f"demonstrations: {len(names)} demonstrator names for {n} episodes")
+    for k, name in enumerate(names):
+        if not isinstance(name, str) or not name.strip():
+            raise InputError(f"demonstrations: episode {k} demonstrator must be a non-empty "
+                             f"name; got {name!r}")
+    return tuple(name.strip() for name in names)
 
 
 def _int_array(x, what: str) -> np.ndarray:

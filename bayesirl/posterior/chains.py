@@ -86,7 +86,8 @@ class _Warm:
     """Mark and roll back the model's warm starts (a no-op for likelihoods without them)."""
 
     def __init__(self, model: PosteriorModel) -> None:
-        self.model, self.lik = model, model.likelihood
+        # the evidence model: every term's warm starts (the likelihood's, for one term)
+        self.model, self.lik = model, getattr(model, "evidence", model.likelihood)
         self.able = hasattr(self.lik, "warm_start")
         self.mark()
 

@@ -13,6 +13,7 @@ import math
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
+from bayesirl.evidence import pooled_evidence
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
 _LOG_MAX = math.log(np.finfo(float).max)
@@ -31,8 +32,12 @@ class PosteriorModel:
         Weights held fixed. Required (one weight) when the rationality is sampled.
     """
 
+    pooling = "pooled"
+
     def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
         self.likelihood = likelihood
+        # prior + sum of evidence terms; here the one term of every episode together
+        self.evidence = pooled_evidence(likelihood)
         names = likelihood.mdp.feature_names
         self.feature_names = names
         self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior
@@ -88,17 +93,17 @@ class PosteriorModel:
         if not _representable(beta):
             return -np.inf, np.full(self.dim, np.nan)
         try:
-            value = self.likelihood.evaluate(w, beta)
+            value = self.evidence.evaluate({"weights": w, "rationality": beta})
         except SolverError:
             self.solver_failures += 1
             return -np.inf, np.full(self.dim, np.nan)
         lp_w, g_w = prior.log_density(theta[:k])
         grad = np.empty(self.dim)
-        grad[:k] = value.grad_weights[self.free] * prior.dtransform(theta[:k]) + g_w
-        total = value.loglik + lp_w
+        grad[:k] = value.grads["weights"][self.free] * prior.dtransform(theta[:k]) + g_w
+        total = value.logp + lp_w
         if self.fixed_rationality is None:
             lp_b, g_b = self.rationality_prior.log_density(theta[k:])
-            grad[k] = value.grad_log_rationality + g_b[0]
+            grad[k] = value.grads["rationality"] + g_b[0]
             total += lp_b
         return float(total), grad
 
@@ -112,7 +117,8 @@ class PosteriorModel:
         if not _representable(beta):
             return -np.inf
         try:
-            total = self.likelihood.value(w, beta) + self._free_prior.log_density(theta[:k])[0]
+            data = self.evidence.evaluate({"weights": w, "rationality": beta}, gradient=False)
+            total = data.logp + self._free_prior.log_density(theta[:k])[0]
         except SolverError:
             self.solver_failures += 1
             return -np.inf

@@ -11,6 +11,14 @@ import numpy as np
 
 from bayesirl.posterior import diagnostics as diag
 from bayesirl.posterior import storage
+from bayesirl.posterior.group_draws import (
+    add_groups,
+    group_columns,
+    group_draws,
+    group_heading,
+    group_names,
+    read_groups,
+)
 from bayesirl.posterior.model import PosteriorModel
 
 # Names in ArviZ's sample_stats convention.
@@ -34,11 +42,17 @@ class Posterior:
     settings : sampler settings; ``adapted`` holds each chain's step size and inverse mass
     model : the PosteriorModel (likelihood with MDP and demonstrations, prior, rationality, pin)
     complete : False for the draws so far of an interrupted run (see ``bayesirl.Interrupted``)
+    groups : None, or with several demonstrators (``pooling`` separate or partial) a dict:
+        ``demonstrator_weights`` ``(chains, draws, G, F)``, ``demonstrators`` (G names) and,
+        for partial pooling, ``spread`` ``(chains, draws, F)``. ``weights`` then holds the
+        population mean (partial) or the mean of the G demonstrators' weights (separate).
     """
 
     def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
-                 seed: int, wall_time: float, chain_times, complete: bool = True) -> None:
+                 seed: int, wall_time: float, chain_times, complete: bool = True,
+                 groups: dict | None = None) -> None:
         self.weights = weights
+        self.groups = groups
         self.rationality = rationality
         self.stats = stats
         self.model = model
@@ -68,8 +82,9 @@ class Posterior:
         adapted = [{"step_size": float(r.step_size), "inv_mass": np.asarray(r.inv_mass).tolist(),
                     "n_evals": int(r.n_evals)} for r in results]
         settings = {**settings, "adapted": adapted}
+        groups = group_draws(model, thetas) if hasattr(model, "group_names") else None
         return cls(weights, beta if sampled else None, stats, model, settings, seed,
-                   wall_time, chain_times, complete)
+                   wall_time, chain_times, complete, groups)
 
     # -- summaries ---------------------------------------------------------------------
     @property
@@ -85,14 +100,19 @@ class Posterior:
     def param_names(self) -> tuple[str, ...]:
         """Names of every sampled quantity, in ArviZ's flattened order."""
         names = self.feature_names
-        return names + (("rationality",) if self.rationality is not None else ())
+        names = names + (("rationality",) if self.rationality is not None else ())
+        return names + group_names(self.groups, self.feature_names)
+
+    def _fixed_names(self) -> tuple[str, ...]:
+        pinned = tuple(self.model.pin)
+        return pinned + group_names(self.groups, pinned)
 
     @property
     def diagnostics(self) -> diag.Diagnostics:
         """R-hat, ESS, divergences and E-BFMI (computed once)."""
         if self._diagnostics is None:
             self._diagnostics = diag.compute(self.to_arviz(), self.param_names(),
-                                             fixed=tuple(self.model.pin))
+                                             fixed=self._fixed_names())
         return self._diagnostics
 
     def warn(self, stream=None) -> None:
@@ -110,9 +130,10 @@ class Posterior:
         cols = [self.weights[..., i] for i in range(self.weights.shape[-1])]
         if self.rationality is not None:
             cols.append(self.rationality)
+        cols += group_columns(self.groups)
         head = (f"{'parameter':<14}{'mean':>9}{'sd':>8}{f'{lo:g}%':>9}{f'{hi:g}%':>9}"
                 f"{'R-hat':>7}{'ESS bulk':>10}{'ESS tail':>10}")
-        rows = [head]
+        rows = [head] + group_heading(self.groups)
         for k, (name, x) in enumerate(zip(self.param_names(), cols, strict=True)):
             q = np.percentile(x, [lo, hi])
             rows.append(f"{name:<14}{x.mean():9.3f}{x.std(ddof=1):8.3f}{q[0]:9.3f}{q[1]:9.3f}"
@@ -133,14 +154,16 @@ class Posterior:
         """ArviZ ``InferenceData`` with posterior, sample_stats and the problem as constant_data."""
         post = {"weights": self.weights}
         dims = {"weights": ["feature"]}
+        coords = {"feature": list(self.feature_names)}
         if self.rationality is not None:
             post["rationality"] = self.rationality
+        add_groups(self.groups, post, dims, coords)
         const, const_dims = storage.problem_arrays(self.model)
         dims.update(const_dims)
         meta = {"bayesirl_run": json.dumps(self._meta(), sort_keys=True)}
         return az.from_dict(
             posterior=post, sample_stats=self.stats, constant_data=const,
-            coords={"feature": list(self.feature_names)}, dims=dims, attrs=meta,
+            coords=coords, dims=dims, attrs=meta,
         )
 
     def _meta(self) -> dict:
@@ -163,4 +186,5 @@ class Posterior:
         post = idata.posterior
         beta = post["rationality"].values if "rationality" in post else None
         return cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
-                   meta["wall_time"], meta["chain_times"], meta.get("complete", True))
+                   meta["wall_time"], meta["chain_times"], meta.get("complete", True),
+                   read_groups(post))

@@ -17,8 +17,8 @@ from bayesirl.errors import InputError
 from bayesirl.posterior import checkpoint as ckpt
 from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.chains import run_job
+from bayesirl.posterior.groups import make_model
 from bayesirl.posterior.interrupt import Stopper
-from bayesirl.posterior.model import PosteriorModel
 from bayesirl.posterior.parallel import run_parallel
 from bayesirl.posterior.partial import Book, finish
 from bayesirl.posterior.progress import ChainProgress
@@ -84,6 +84,7 @@ def sample(
     checkpoint: str | Path | None = None,
     resume: bool = False,
     cluster=None,
+    pooling=None,
 ):
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
@@ -127,6 +128,11 @@ def sample(
         whose worker dies is rerun from its seed. Needs ``bayesirl[cluster]``; cannot be
         combined with ``checkpoint``, ``resume`` or ``processes`` (see the README,
         "Running chains on a cluster").
+    pooling : {"pooled", "separate", "partial"} or Pooling, optional
+        How episodes of different demonstrators (``Demonstrations(..., demonstrators=)``)
+        share a reward; default ``"pooled"``: one reward for every episode. ``"partial"``:
+        each demonstrator's weights around a population mean with a sampled per-feature
+        spread (see :class:`bayesirl.posterior.groups.Pooling`).
 
     Returns
     -------
@@ -151,7 +157,7 @@ def sample(
         dask_cluster.check_arguments(cluster, checkpoint, resume, processes)
     if resume and checkpoint is None:
         raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
-    model = PosteriorModel(likelihood, prior, rationality, pin)
+    model = make_model(likelihood, prior, rationality, pin, pooling)
     settings = {"draws": int(draws), "warmup": int(warmup), "method": method,
                 "dense_mass": bool(dense_mass), "target_accept": target_accept,
                 "max_depth": int(max_depth)}

@@ -11,6 +11,7 @@ from bayesirl.errors import InputError
 from bayesirl.files import atomic_target
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP
+from bayesirl.posterior.groups import Pooling, make_model
 from bayesirl.posterior.model import PosteriorModel
 
 FORMAT = "bayesirl-posterior/1"
@@ -47,6 +48,9 @@ def problem_arrays(model: PosteriorModel) -> tuple[dict, dict]:
     if mdp.start is not None:
         arrays["start"] = np.asarray(mdp.start)
         dims["start"] = ["state"]
+    if demos.demonstrators is not None:
+        arrays["demo_demonstrators"] = np.asarray(demos.demonstrators, dtype=str)
+        dims["demo_demonstrators"] = ["episode"]
     return arrays, dims
 
 
@@ -78,11 +82,15 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
                      grid_shape=pm.get("grid_shape"))
     s_cut = np.cumsum(const["demo_state_counts"].values)[:-1]
     a_cut = np.cumsum(const["demo_action_counts"].values)[:-1]
+    who = (None if "demo_demonstrators" not in const
+           else [str(x) for x in const["demo_demonstrators"].values])
     demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
-                                       np.split(const["demo_actions"].values, a_cut))
+                                       np.split(const["demo_actions"].values, a_cut), who)
     lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"], q=pm["q"],
                               tol=pm["tol"], **_solver_settings(pm))
-    return PosteriorModel(lik, **PosteriorModel.parse_spec(meta["model"]))
+    spec = meta["model"]
+    pooling = Pooling.from_spec(spec["pooling"]) if "pooling" in spec else None
+    return make_model(lik, pooling=pooling, **PosteriorModel.parse_spec(spec))
 
 
 def _solver_settings(pm: dict) -> dict:

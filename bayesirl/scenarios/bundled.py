@@ -15,9 +15,10 @@ import numpy as np
 
 from bayesirl.files import atomic_target, write_text
 from bayesirl.io import read_problem, write_demonstrations
-from bayesirl.model import simulate
+from bayesirl.model import Demonstrations, simulate
 from bayesirl.scenarios.machine import MACHINE_WEIGHTS, machine_arrays
 from bayesirl.scenarios.park import PARK, PARK_WEIGHTS, SLIP
+from bayesirl.scenarios.walkers import EPISODES_EACH, LENGTH, POOLING_TABLE, WALKER_WEIGHTS
 
 # Small sampler settings keep a bundled example to seconds on two cores; the write-ups say so.
 EXAMPLE_SAMPLER = "chains = 4\ndraws = 600\nwarmup = 400\nseed = 0\n"
@@ -138,6 +139,21 @@ def _write_wet_park(folder: Path) -> tuple[Path, Path]:
                                               [f"walk-{k + 1}" for k in range(WET_PARK_WALKS)])
 
 
+def _write_walkers(folder: Path) -> tuple[Path, Path]:
+    text = PARK_TOML.replace("a walker crossing a small park", "four walkers crossing a "
+                             "small park").replace('"park walks"', '"four walkers"')
+    problem_path = write_text(folder / "walkers.toml", text + "\n" + POOLING_TABLE)
+    problem = read_problem(problem_path)
+    episodes, names, ids = [], [], []
+    for k, (who, w) in enumerate(WALKER_WEIGHTS.items()):
+        demos = simulate(problem.mdp, w, episodes=EPISODES_EACH, length=LENGTH, seed=10 + k)
+        episodes += list(demos.episodes)
+        names += [who] * EPISODES_EACH
+        ids += [f"{who}-{j + 1}" for j in range(EPISODES_EACH)]
+    return problem_path, write_demonstrations(folder / "walks.csv",
+                                              Demonstrations(episodes, names), problem, ids)
+
+
 def _write_machine(folder: Path) -> tuple[Path, Path]:
     p, phi = machine_arrays()
     start = np.zeros(p.shape[0])
@@ -163,4 +179,7 @@ EXAMPLES = {
                                   "each month at 80 wear levels, discount 0.999 (a dynamic "
                                   "discrete choice)",
                        _write_machine),
+    "walkers": Example("walkers", "four walkers in the park who agree on mud and slope but "
+                                  "differ on shade (partial pooling of demonstrators)",
+                       _write_walkers),
 }
