@@ -63,6 +63,8 @@ class BoltzmannLikelihood:
     ) -> None:
         if q not in ("soft", "optimal"):
             raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
+        if not hasattr(demos, "check") or not hasattr(demos, "episodes"):
+            raise InputError(f"demos: expected Demonstrations; got {type(demos).__name__}")
         demos.check(mdp)
         self.mdp, self.demos, self.q = mdp, demos, q
         self.rationality = _positive(rationality)

@@ -123,9 +123,6 @@ def test_float32_dense_transitions_are_accepted_and_made_stochastic():
                                rtol=0, atol=4 * np.finfo(float).eps)
 
 
-@pytest.mark.xfail(strict=True, raises=AttributeError,
-                   reason="BoltzmannLikelihood(mdp, None) reaches demos.check: the likelihood "
-                          "module (another issue's) does not check its demos argument yet")
 def test_likelihood_refuses_missing_demonstrations():
     with pytest.raises(bi.InputError, match="demos"):
         bi.BoltzmannLikelihood(small_mdp(0, 2), None)
