@@ -40,6 +40,9 @@ def _python(code: str, tmp_path: Path, warnings: str = "error") -> subprocess.Co
 def test_import_bayesirl_prints_nothing_even_as_errors(tmp_path):
     done = _python("import bayesirl", tmp_path)
     assert (done.returncode, done.stderr, done.stdout) == (0, "", "")
+    # The public names are imported on first use: resolve them all too.
+    done = _python("import bayesirl\nfor n in bayesirl.__all__: getattr(bayesirl, n)", tmp_path)
+    assert (done.returncode, done.stderr, done.stdout) == (0, "", ""), done.stderr
 
 
 def test_first_use_of_arviz_prints_nothing_even_as_errors(tmp_path):
