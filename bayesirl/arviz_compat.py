@@ -52,6 +52,20 @@ def _arviz0() -> ModuleType:
     return arviz
 
 
+def preload() -> None:
+    """Import now what writing a posterior file needs (seconds), not when a run stops.
+
+    A stopped ``bayesirl fit`` saves its draws on the way out; the import would otherwise
+    land between the signal and the exit.
+    """
+    if series() >= 1:
+        import arviz_base  # noqa: F401
+        import xarray  # noqa: F401
+    else:
+        _arviz0()
+    import h5netcdf  # noqa: F401
+
+
 def _chains(x) -> np.ndarray:
     """``(chains, draws)``: a 1-D series is one chain, as 0.2x reads it."""
     x = np.asarray(x, dtype=float)

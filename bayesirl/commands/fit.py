@@ -10,6 +10,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import bayesirl
+from bayesirl import arviz_compat
 from bayesirl.commands.runs import inputs_record, say, write_results
 from bayesirl.errors import InputError
 from bayesirl.io import RunFolder, read_demonstrations, read_problem, staged_folder
@@ -45,6 +46,8 @@ def _load(problem_path, demos_path):
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
     lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator,
                               **problem.solver)
+    # Before sampling starts (and before its status line), so a stop saves the draws at once.
+    arviz_compat.preload()
     return problem, lik
 
 
