@@ -133,7 +133,7 @@ def to_netcdf(data, path) -> None:
 
 
 def from_netcdf(path: Path | str):
-    """Read a file written by any bayesirl release into memory (the file is closed after)."""
+    """Read a file written by any bayesirl release, with every group loaded into memory."""
     if series() >= 1:
         import xarray as xr
 
@@ -143,10 +143,3 @@ def from_netcdf(path: Path | str):
     for name in data.groups():
         data[name].load()
     return data
-
-
-def group_names(data) -> list[str]:
-    """The groups of ArviZ's container, without leading slashes."""
-    if series() >= 1:
-        return [name for name in data.children]
-    return list(data.groups())
