@@ -1,8 +1,13 @@
-"""bayesirl: how much do your demonstrations really determine a reward?"""
+"""bayesirl: how much do your demonstrations really determine a reward?
+
+The public names below are imported on first use (PEP 562), so ``import bayesirl`` and
+``bayesirl --help`` do not load numba, plotting, ArviZ or Dask: each costs seconds.
+"""
 
 from __future__ import annotations
 
 import importlib
+from typing import TYPE_CHECKING
 
 from bayesirl.errors import InputError, Interrupted, SolverError
 
@@ -11,6 +16,8 @@ __version__ = "0.1.0"
 # The public names and the modules they live in. They are imported on first use, so that the
 # command line starts (and handles Ctrl-C) before numpy, scipy and numba load.
 _LAZY = {
+    "AmbiguityReport": "bayesirl.report",
+    "ambiguity": "bayesirl.report",
     "Suggestion": "bayesirl.design",
     "suggest": "bayesirl.design",
     "BoltzmannLikelihood": "bayesirl.likelihood",
@@ -42,22 +49,34 @@ def __dir__() -> list[str]:
 
 
 __all__ = [
+    "AmbiguityReport",
     "BoltzmannLikelihood",
+    "Demonstrations",
     "HalfNormal",
+    "InputError",
+    "Interrupted",
     "Laplace",
+    "LikelihoodValue",
     "LogNormal",
     "Normal",
     "Pooling",
     "Posterior",
-    "Uniform",
-    "sample",
-    "Demonstrations",
-    "InputError",
-    "Interrupted",
-    "LikelihoodValue",
     "SolverError",
-    "TabularMDP",
-    "simulate",
     "Suggestion",
+    "TabularMDP",
+    "Uniform",
+    "ambiguity",
+    "sample",
+    "simulate",
     "suggest",
 ]
+
+
+if TYPE_CHECKING:  # the same names, eagerly, for type checkers and IDEs
+    from bayesirl.design import Suggestion, suggest
+    from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
+    from bayesirl.model import Demonstrations, TabularMDP, simulate
+    from bayesirl.posterior import Posterior, sample
+    from bayesirl.posterior.groups import Pooling
+    from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Uniform
+    from bayesirl.report import AmbiguityReport, ambiguity

@@ -24,18 +24,15 @@ Draws are ``(n, dim)`` for one chain or ``(chains, n, dim)``.
 from __future__ import annotations
 
 import math
-import warnings
 from collections.abc import Callable, Sequence
 from typing import Any, NamedTuple
 
 import numpy as np
 from scipy import stats
 
+# ArviZ of either series (0.2x or 1.x), on plain (chains, draws) arrays.
+from bayesirl import arviz_compat as az
 from bayesirl.sampler import ChainResult, run_chain
-
-with warnings.catch_warnings():  # arviz 0.2x announces its refactor on import
-    warnings.simplefilter("ignore", FutureWarning)
-    import arviz as az
 
 DEFAULT_ALPHA = 1e-3
 DEFAULT_PROBS = (0.05, 0.5, 0.95)
@@ -89,7 +86,7 @@ def as_chains(draws: np.ndarray) -> np.ndarray:
 
 
 def _ess(x: np.ndarray, method: str, prob: float | None = None) -> float:
-    return float(az.ess(x, method=method, prob=prob))
+    return az.ess(x, method=method, prob=prob)
 
 
 def mean_mcse(x: np.ndarray) -> tuple[float, float]:

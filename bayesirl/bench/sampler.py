@@ -16,9 +16,9 @@ from __future__ import annotations
 
 import time
 
-import arviz as az
 import numpy as np
 
+from bayesirl import arviz_compat
 from bayesirl.bench.problems import demonstrations_for, random_mdp
 from bayesirl.bench.reference import reference_value_and_grad
 from bayesirl.likelihood import BoltzmannLikelihood
@@ -64,8 +64,8 @@ def _run_emcee(lik, mdp, demos, steps: int, seed: int) -> dict:
     per_eval = _plain_cost(mdp, demos, 3)
     evals = walkers * (steps - burn)
     flat = ens.get_chain(discard=burn)  # (steps, walkers, dim)
-    rhat = float(np.max(az.rhat(az.convert_to_dataset(np.swapaxes(flat, 0, 1)))
-                        .to_array().values))
+    by_walker = np.swapaxes(flat, 0, 1)  # (walkers, steps, dim): a walker as a chain
+    rhat = max(arviz_compat.rhat(by_walker[:, :, k]) for k in range(dim))
     return {"method": "emcee (plain density)", "wall_s": per_eval * walkers * steps,
             "sampling_s": per_eval * evals, "min_bulk_ess": ess,
             "ess_per_s": ess / (per_eval * evals), "evals_per_ess": evals / ess,

@@ -7,6 +7,7 @@ import sys
 from pathlib import Path
 
 import bayesirl
+from bayesirl import arviz_compat
 from bayesirl.commands import mass
 from bayesirl.commands.runs import inputs_record, save_draws, say, started_summary, write_report
 from bayesirl.commands.signals import acknowledge, held
@@ -28,6 +29,8 @@ def _load(problem_path, demos_path):
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
     lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator,
                               **problem.solver)
+    # Before sampling starts (and before its status line), so a stop saves the draws at once.
+    arviz_compat.preload()
     return problem, lik
 
 

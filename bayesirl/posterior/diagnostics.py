@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from typing import NamedTuple
 
-import arviz as az
 import numpy as np
+
+from bayesirl import arviz_compat as arviz
 
 # Vehtari, Gelman, Simpson, Carpenter & Buerkner (2021), "Rank-normalization, folding, and
 # localization: an improved R-hat": use samples only when rank-normalised split R-hat < 1.01
@@ -42,21 +43,28 @@ class Diagnostics(NamedTuple):
 
 
 def _per_param(dataset, func) -> np.ndarray:
-    out = func(dataset)
-    return np.concatenate([np.atleast_1d(out[v].values).ravel() for v in dataset.data_vars])
+    """``func`` of each scalar's ``(chain, draw)`` draws, variables flattened in order."""
+    out = []
+    for v in dataset.data_vars:
+        x = np.asarray(dataset[v].values, dtype=float)
+        flat = x.reshape(x.shape[0], x.shape[1], -1)
+        out += [func(flat[:, :, k]) for k in range(flat.shape[2])]
+    return np.asarray(out, dtype=float)
 
 
-def compute(idata: az.InferenceData, names: tuple[str, ...], fixed=()) -> Diagnostics:
+def compute(idata, names: tuple[str, ...], fixed=()) -> Diagnostics:
     """Diagnostics of ``idata.posterior`` (every variable, flattened in order).
+
+    ``idata`` is ArviZ's container of either series (see :mod:`bayesirl.arviz_compat`).
 
     Names in ``fixed`` (pinned weights, constant by construction) get NaN R-hat and ESS and
     are exempt from the warnings.
     """
     post = idata.posterior
     with np.errstate(invalid="ignore", divide="ignore"):  # constant pinned draws
-        rhat = _per_param(post, lambda d: az.rhat(d, method="rank"))
-        bulk = _per_param(post, lambda d: az.ess(d, method="bulk"))
-        tail = _per_param(post, lambda d: az.ess(d, method="tail"))
+        rhat = _per_param(post, lambda x: arviz.rhat(x, method="rank"))
+        bulk = _per_param(post, lambda x: arviz.ess(x, method="bulk"))
+        tail = _per_param(post, lambda x: arviz.ess(x, method="tail"))
     for k, name in enumerate(names):
         if name in fixed:
             rhat[k] = bulk[k] = tail[k] = np.nan
@@ -64,7 +72,7 @@ def compute(idata: az.InferenceData, names: tuple[str, ...], fixed=()) -> Diagno
     div = int(stats["diverging"].values.sum()) if "diverging" in stats else 0
     energy = stats["energy"].values if "energy" in stats else None
     if energy is not None and np.all(np.isfinite(energy)):
-        ebfmi = np.asarray(az.bfmi(idata))
+        ebfmi = arviz.bfmi(energy)
     else:
         ebfmi = np.full(post.sizes["chain"], np.nan)
     warn = _warnings(names, rhat, bulk, tail, div, ebfmi, set(fixed))

@@ -6,9 +6,9 @@ import json
 import sys
 from pathlib import Path
 
-import arviz as az
 import numpy as np
 
+from bayesirl import arviz_compat as arviz
 from bayesirl.posterior import diagnostics as diag
 from bayesirl.posterior import storage
 from bayesirl.posterior.group_draws import (
@@ -150,8 +150,11 @@ class Posterior:
                 f"draws={self.n_draws}{'' if self.complete else ', complete=False'})")
 
     # -- ArviZ and files ---------------------------------------------------------------
-    def to_arviz(self) -> az.InferenceData:
-        """ArviZ ``InferenceData`` with posterior, sample_stats and the problem as constant_data."""
+    def to_arviz(self):
+        """ArviZ's container with posterior, sample_stats and the problem as constant_data.
+
+        An ``InferenceData`` under ArviZ 0.2x, an ``xarray.DataTree`` under ArviZ 1.x.
+        """
         post = {"weights": self.weights}
         dims = {"weights": ["feature"]}
         coords = {"feature": list(self.feature_names)}
@@ -161,8 +164,8 @@ class Posterior:
         const, const_dims = storage.problem_arrays(self.model)
         dims.update(const_dims)
         meta = {"bayesirl_run": json.dumps(self._meta(), sort_keys=True)}
-        return az.from_dict(
-            posterior=post, sample_stats=self.stats, constant_data=const,
+        return arviz.from_groups(
+            {"posterior": post, "sample_stats": self.stats, "constant_data": const},
             coords=coords, dims=dims, attrs=meta,
         )
 
@@ -173,13 +176,13 @@ class Posterior:
                 "model": self.model.spec(), "problem": storage.problem_meta(self.model)}
 
     def save(self, path) -> Path:
-        """Write a NetCDF file (readable by plain ``arviz.from_netcdf``), atomically."""
+        """Write a NetCDF file (``arviz.from_netcdf``, ``xarray.open_datatree``), atomically."""
         return storage.write_netcdf(self.to_arviz(), Path(path))
 
     @classmethod
     def load(cls, path) -> Posterior:
         """Restore a posterior, with its MDP, demonstrations, prior and settings."""
-        idata = az.from_netcdf(str(path))
+        idata = arviz.from_netcdf(path)
         meta = json.loads(idata.constant_data.attrs["bayesirl_run"])
         model = storage.rebuild_model(idata.constant_data, meta)
         stats = {k: idata.sample_stats[k].values for k in _STAT_NAMES.values()}

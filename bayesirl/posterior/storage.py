@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 import scipy.sparse as sp
 
+from bayesirl import arviz_compat
 from bayesirl.errors import InputError
 from bayesirl.files import atomic_target
 from bayesirl.likelihood import BoltzmannLikelihood
@@ -100,7 +101,7 @@ def _solver_settings(pm: dict) -> dict:
 
 
 def write_netcdf(idata, path: Path) -> Path:
-    """``idata.to_netcdf`` into a temporary file beside ``path``, then rename."""
+    """Write ``idata`` into a temporary file beside ``path``, then rename."""
     with atomic_target(path) as tmp:
-        idata.to_netcdf(str(tmp))
+        arviz_compat.to_netcdf(idata, tmp)
     return Path(path)

@@ -9,13 +9,14 @@ from __future__ import annotations
 
 import math
 from html import escape
+from typing import TYPE_CHECKING
 
 import numpy as np
-from matplotlib.figure import Figure
 
 from bayesirl.errors import InputError
-from bayesirl.report import maps
-from bayesirl.report.plots import style_axes
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
 
 # The map stays readable with this many numbered markers; the table lists them all.
 MAP_TOP = 5
@@ -128,6 +129,12 @@ def _cell_of(rec, rows: int, cols: int):
 
 def suggestion_map(posterior, records: list[dict], level: float) -> Figure | None:
     """Posterior-mean reward per cell with the top suggestions as numbered markers."""
+    # Plotting is imported here: ambiguity() (and `bayesirl check`) need only as_records.
+    from matplotlib.figure import Figure
+
+    from bayesirl.report import maps
+    from bayesirl.report.plots import style_axes
+
     summary = maps.map_summary(posterior, level)
     if summary is None or not records:
         return None

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-import arviz as az
 import numpy as np
 
+from bayesirl import arviz_compat as arviz
 from bayesirl.report import combinations, verdicts
 
 
@@ -58,7 +58,7 @@ def weights_table(posterior, level: float = 0.9, prior=None, truth=None,
             "sd": sd,
             "median": float(np.median(x)),
             "interval": [float(np.quantile(x, lo)), float(np.quantile(x, hi))],
-            "hdi": [float(v) for v in az.hdi(x, hdi_prob=level)] if not pinned
+            "hdi": list(arviz.hdi(x, level)) if not pinned
             else [float(x[0]), float(x[0])],
             "prior_sd": float(np.sqrt(var_prior[i])),
             "pinned": pinned,

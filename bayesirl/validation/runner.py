@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import os
 import time
-import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 from multiprocessing import get_all_start_methods, get_context
@@ -26,6 +25,7 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
+from bayesirl import arviz_compat as az
 from bayesirl.errors import InputError, SolverError
 from bayesirl.threads import one_blas_thread
 from bayesirl.validation.ranks import (
@@ -37,10 +37,6 @@ from bayesirl.validation.ranks import (
     unthinned,
 )
 from bayesirl.validation.ranks import uniformity as chi_square
-
-with warnings.catch_warnings():  # arviz 0.2x announces its refactor on import
-    warnings.simplefilter("ignore", FutureWarning)
-    import arviz as az
 
 
 @dataclass(frozen=True)
@@ -134,9 +130,9 @@ def _diagnose(draws: np.ndarray) -> tuple[float, float]:
     ess, rhat = np.inf, np.nan
     for k in range(draws.shape[2]):
         x = draws[:, :, k]
-        ess = min(ess, float(az.ess(x, method="bulk")), float(az.ess(x, method="tail")))
+        ess = min(ess, az.ess(x, method="bulk"), az.ess(x, method="tail"))
         if draws.shape[0] > 1:
-            rhat = np.fmax(rhat, float(az.rhat(x, method="rank")))
+            rhat = np.fmax(rhat, az.rhat(x, method="rank"))
     return ess, float(rhat)
 
 

@@ -1,8 +1,9 @@
-"""Posterior files: plain ArviZ reads them in a fresh interpreter, load restores everything,
-and save is atomic.
+"""Posterior files: plain ArviZ and plain xarray read them in a fresh interpreter, load
+restores everything, and save is atomic.
 
-Outside reference: ArviZ's own NetCDF reader (``arviz.from_netcdf``, Kumar et al. 2019,
-JOSS 4) run in a separate Python process that has never imported bayesirl.
+Outside references: ArviZ's own NetCDF reader (``arviz.from_netcdf``, Kumar et al. 2019,
+JOSS 4; 0.2x or 1.x, whichever this Python has) and xarray's ``open_datatree``, run in a
+separate Python process that has never imported bayesirl.
 """
 
 from __future__ import annotations
@@ -12,11 +13,11 @@ import subprocess
 import sys
 from functools import cache
 
-import arviz as az
 import numpy as np
 import pytest
 
 import bayesirl as bi
+from bayesirl import arviz_compat
 from bayesirl.posterior import Posterior, PosteriorModel
 
 from .problems import small_mdp
@@ -75,14 +76,19 @@ def _posterior(case: str) -> bi.Posterior:
 
 
 FRESH_READER = """
-import json, sys
-import arviz
+import json, sys, warnings
+import xarray
+with warnings.catch_warnings():  # arviz 0.2x announces its refactor on import
+    warnings.simplefilter("ignore", FutureWarning)
+    import arviz
 out = {}
 for path in sys.argv[1:]:
     idata = arviz.from_netcdf(path)
     post = idata.posterior
+    tree = xarray.open_datatree(path)
     out[path] = {
-        "groups": list(idata.groups()),
+        "groups": [g.strip("/") for g in tree.groups if g != "/"],
+        "tree_weights": tree["posterior"]["weights"].values.tolist(),
         "vars": list(post.data_vars),
         "dims": list(post["weights"].dims),
         "features": [str(f) for f in post["weights"].coords["feature"].values],
@@ -104,6 +110,7 @@ def test_plain_arviz_in_a_fresh_interpreter_reads_the_files(tmp_path):
     for case, path in paths.items():
         post, seen = _posterior(case), seen_all[path]
         assert {"posterior", "sample_stats", "constant_data"} <= set(seen["groups"])
+        assert np.array_equal(np.array(seen["tree_weights"]), post.weights)
         assert seen["dims"] == ["chain", "draw", "feature"]
         assert seen["features"] == list(post.feature_names)
         assert np.array_equal(np.array(seen["weights"]), post.weights)  # JSON floats exact
@@ -168,7 +175,7 @@ def test_load_restores_draws_problem_and_model(case, tmp_path):
     assert np.array_equal(d0.rhat, d1.rhat, equal_nan=True) and d0.warnings == d1.warnings
 
 
-def _failing_to_netcdf(self, filename, *args, **kwargs):
+def _failing_to_netcdf(data, filename):
     with open(filename, "wb") as fh:  # a partial file, as a crash mid-write leaves
         fh.write(b"\x89HDF\r\n partial")
     raise OSError("simulated failure while writing")
@@ -176,7 +183,7 @@ def _failing_to_netcdf(self, filename, *args, **kwargs):
 
 def test_save_is_atomic_when_writing_fails(tmp_path, monkeypatch):
     post = _posterior("finite-horizon")
-    monkeypatch.setattr(az.InferenceData, "to_netcdf", _failing_to_netcdf)
+    monkeypatch.setattr(arviz_compat, "to_netcdf", _failing_to_netcdf)
     target = tmp_path / "run.nc"
     with pytest.raises(OSError, match="simulated failure"):
         post.save(target)
@@ -187,7 +194,7 @@ def test_failed_save_leaves_an_existing_file_intact(tmp_path, monkeypatch):
     post = _posterior("finite-horizon")
     target = post.save(tmp_path / "run.nc")
     before = target.read_bytes()
-    monkeypatch.setattr(az.InferenceData, "to_netcdf", _failing_to_netcdf)
+    monkeypatch.setattr(arviz_compat, "to_netcdf", _failing_to_netcdf)
     with pytest.raises(OSError, match="simulated failure"):
         post.save(target)
     assert target.read_bytes() == before

@@ -1,0 +1,76 @@
+"""Start-up: ``import bayesirl`` and ``bayesirl --help`` load none of the heavy libraries, and
+``bayesirl check`` loads no plotting, ArviZ or Dask; the public names resolve on first use.
+Times are measured by hand (``python -X importtime``), not here: a timed test on a shared
+machine would be noise. What this checks is which modules get imported.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import bayesirl
+
+REPO = Path(__file__).resolve().parents[2]
+HEAVY = ("arviz", "arviz_base", "arviz_stats", "dask", "distributed", "matplotlib", "numba",
+         "scipy", "xarray")
+
+LOADED = """
+import json, sys
+{code}
+print(json.dumps(sorted({{m.split(".")[0] for m in sys.modules}} & set({heavy!r}))))
+"""
+
+
+def _loaded(code: str, cwd: Path) -> list[str]:
+    path = os.pathsep.join([str(REPO), os.environ.get("PYTHONPATH", "")])
+    env = dict(os.environ, PYTHONPATH=path)
+    env.setdefault("NUMBA_CACHE_DIR", "/tmp/nbcache-tests")
+    done = subprocess.run([sys.executable, "-c", LOADED.format(code=code, heavy=HEAVY)],
+                          cwd=cwd, env=env, capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    return json.loads(done.stdout.splitlines()[-1])
+
+
+def test_import_and_help_load_no_heavy_library(tmp_path):
+    assert _loaded("import bayesirl", tmp_path) == []
+    # argparse's --help exits through SystemExit, which main() turns into its return value.
+    help_ = "from bayesirl.cli import main\nassert main(['--help']) == main(['fit', '--help']) == 0"
+    assert _loaded(help_, tmp_path) == []
+
+
+def test_check_loads_no_plotting_arviz_or_dask(tmp_path):
+    folder = REPO / "examples" / "park"
+    problem, demos = folder / "park.toml", folder / "walks.csv"
+    args = ["check", str(problem), str(demos)]
+    code = f"from bayesirl.cli import main\nassert main({args!r}) == 0"
+    loaded = _loaded(code, tmp_path)
+    assert not set(loaded) & {"matplotlib", "arviz", "arviz_base", "arviz_stats", "dask",
+                              "distributed", "xarray"}, loaded
+
+
+def test_the_module_check_sees_a_heavy_import(tmp_path):
+    # Negative control: drawing a report figure does load matplotlib, and the check says so.
+    assert "matplotlib" in _loaded("import bayesirl.report.plots", tmp_path)
+
+
+def test_public_names_resolve_lazily_to_their_modules():
+    from bayesirl import report
+    from bayesirl.design import suggest
+
+    assert sorted(bayesirl.__all__) == sorted(bayesirl._EXPORTS)
+    for name in bayesirl.__all__:
+        assert getattr(bayesirl, name) is getattr(sys.modules[bayesirl._EXPORTS[name]], name)
+    assert bayesirl.ambiguity is report.ambiguity
+    assert bayesirl.AmbiguityReport is report.AmbiguityReport
+    assert bayesirl.suggest is suggest
+    assert set(bayesirl.__all__) <= set(dir(bayesirl))
+    try:
+        bayesirl.no_such_name  # noqa: B018
+    except AttributeError as err:
+        assert "no_such_name" in str(err)
+    else:
+        raise AssertionError("an unknown name must raise AttributeError")
