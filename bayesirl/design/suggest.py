@@ -18,6 +18,7 @@ from bayesirl.design.work import LocalBackend, groups
 from bayesirl.errors import InputError
 from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.progress import StatusLine
+from bayesirl.resources import MAX_BUDGET
 
 KINDS = ("start-states", "query-states")
 
@@ -85,6 +86,9 @@ def _demo_length(mdp, demos, length) -> int:
 def _check_budget(budget, n_candidates: int) -> int:
     if isinstance(budget, bool) or not isinstance(budget, (int, np.integer)) or budget < 1:
         raise InputError(f"suggest: budget must be an integer >= 1; got {budget!r}")
+    if budget > MAX_BUDGET:  # each pick re-scores every candidate: bounded up front
+        raise InputError(f"suggest: budget {budget} is more than the limit of {MAX_BUDGET} "
+                         "demonstrations chosen together")
     return int(budget)
 
 

@@ -27,6 +27,7 @@ def post():
     ({"budget": 0}, "budget must be an integer >= 1; got 0"),
     ({"budget": 1.5}, "budget must be an integer >= 1; got 1.5"),
     ({"budget": True}, "budget must be an integer >= 1; got True"),
+    ({"budget": 10**9}, "budget 1000000000 is more than the limit of 100"),
     ({"target": "speed"}, "unknown target 'speed'"),
     ({"target": "left/speed"}, "unknown target 'left/speed'"),
     ({"target": 3}, "target must be a feature name"),
