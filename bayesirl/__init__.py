@@ -15,7 +15,10 @@ __version__ = "0.1.0"
 
 # The public names and the modules they live in. They are imported on first use, so that the
 # command line starts (and handles Ctrl-C) before numpy, scipy and numba load.
-_LAZY = {
+_EXPORTS = {
+    "InputError": "bayesirl.errors",  # these three are imported above (they are light)
+    "Interrupted": "bayesirl.errors",
+    "SolverError": "bayesirl.errors",
     "AmbiguityReport": "bayesirl.report",
     "ambiguity": "bayesirl.report",
     "Suggestion": "bayesirl.design",
@@ -37,15 +40,15 @@ _LAZY = {
 
 
 def __getattr__(name: str):
-    if name in _LAZY:
-        value = getattr(importlib.import_module(_LAZY[name]), name)
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(_EXPORTS[name]), name)
         globals()[name] = value  # later look-ups skip this function
         return value
     raise AttributeError(f"module 'bayesirl' has no attribute {name!r}")
 
 
 def __dir__() -> list[str]:
-    return sorted({*globals(), *_LAZY})
+    return sorted({*globals(), *_EXPORTS})
 
 
 __all__ = [
