@@ -19,6 +19,7 @@ from __future__ import annotations
 from functools import cache
 
 import numpy as np
+import pytest
 from scipy import stats
 
 import bayesirl as bi
@@ -69,6 +70,7 @@ def test_paired_t_has_power_and_no_false_trend():
     assert abs(paired_t(rng.normal(size=(len(SEEDS), 1)))[0]) < crit
 
 
+@pytest.mark.slow  # several fits per seed (~30 s): a statistical suite
 def test_contraction_grows_with_demonstrations():
     c, _ = contractions()
     crit = stats.t.ppf(1 - FAMILY_ALPHA / N_TESTS, df=len(SEEDS) - 1)
