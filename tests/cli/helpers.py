@@ -53,3 +53,16 @@ def run_subprocess(args, cwd, timeout=120, **kwargs) -> subprocess.CompletedProc
     return subprocess.run([sys.executable, "-m", "bayesirl", *map(str, args)], cwd=cwd,
                           env=cli_env(), capture_output=True, text=True, timeout=timeout,
                           **kwargs)
+
+
+def write_files(folder, files: dict) -> None:
+    """Write ``{name: text, bytes or None}`` into ``folder`` (None removes the file)."""
+    for name, content in files.items():
+        path = folder / name
+        path.parent.mkdir(parents=True, exist_ok=True)
+        if content is None:
+            path.unlink(missing_ok=True)
+        elif isinstance(content, bytes):
+            path.write_bytes(content)
+        else:
+            path.write_text(content)

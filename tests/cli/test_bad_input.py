@@ -11,7 +11,7 @@ import pytest
 
 from bayesirl.cli import main
 
-from .helpers import TINY_CSV, TINY_TOML, run_subprocess
+from .helpers import TINY_CSV, TINY_TOML, run_subprocess, write_files
 
 
 def toml(old: str, new: str) -> dict:
@@ -172,16 +172,7 @@ CASES = [
 ]
 
 
-def _write(tmp_path, files) -> None:
-    for name, content in files.items():
-        path = tmp_path / name
-        path.parent.mkdir(parents=True, exist_ok=True)
-        if content is None:
-            path.unlink(missing_ok=True)
-        elif isinstance(content, bytes):
-            path.write_bytes(content)
-        else:
-            path.write_text(content)
+_write = write_files
 
 
 def test_table_is_large_and_distinct():

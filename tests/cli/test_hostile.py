@@ -20,6 +20,7 @@ from bayesirl.cli import main
 
 from . import hostile as h
 from .helpers import run_subprocess
+from .helpers import write_files as _write
 
 FIT = ["fit", "tiny.toml", "walks.csv", "--out", "run"]
 FIT_RING = ["fit", "tiny.toml", "ring.csv", "--out", "run"]
@@ -384,18 +385,6 @@ RUNS = [
 ]
 
 CASES = OUTPUT + ARRAYS + TOML + DEMOS + RUNS
-
-
-def _write(folder: Path, files: dict) -> None:
-    for name, content in files.items():
-        path = folder / name
-        path.parent.mkdir(parents=True, exist_ok=True)
-        if content is None:
-            path.unlink(missing_ok=True)
-        elif isinstance(content, bytes):
-            path.write_bytes(content)
-        else:
-            path.write_text(content)
 
 
 def snapshot(folder: Path) -> dict:
