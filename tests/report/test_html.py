@@ -318,7 +318,8 @@ def test_browser_dom_has_every_section(chromium, pages, tmp_path):
     assert not console_messages(err), console_messages(err)
     page = Page(dom)
     assert page.sections == list(SECTION_IDS)
-    assert len(page.images) == 4 and "trust-banner" in page.ids
+    # The ring has no grid: marginals, pairs, ranks, risk and the per-state reward plot.
+    assert len(page.images) == 5 and "trust-banner" in page.ids
     assert escape(CAUTION) in dom
 
 
