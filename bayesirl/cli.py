@@ -94,6 +94,11 @@ def _validate(args):
     return validate_command(args)
 
 
+TOLERANCE_HELP = ("precision that matters, in reward units: a weight is determined when its "
+                  "interval excludes zero and its half-width is <= T (default: [report] "
+                  "tolerance in the problem file, else within a factor of 2 of its own size)")
+
+
 def _level(text: str) -> float:
     try:
         v = float(text)
@@ -149,8 +154,10 @@ def _fit_parser(sub) -> None:
     fit.add_argument("--force", action="store_true", help="replace an existing run folder")
     fit.add_argument("--resume", metavar="RUNDIR", help="continue an interrupted run folder to "
                      "its requested draws, e.g. bayesirl fit --resume park-run")
-    fit.add_argument("--level", type=_level, default=0.9,
-                     help="credible level of the report's intervals (default 0.9)")
+    fit.add_argument("--level", type=_level,
+                     help="credible level of the report's intervals (default: [report] level "
+                          "in the problem file, else 0.9)")
+    fit.add_argument("--tolerance", type=float, metavar="T", help=TOLERANCE_HELP)
     fit.add_argument("--chains", type=_positive, help="override [sampler] chains, e.g. 4")
     fit.add_argument("--draws", type=_positive, help="override [sampler] draws per chain")
     fit.add_argument("--warmup", type=_count, help="override [sampler] warm-up iterations")
@@ -165,13 +172,10 @@ def _other_parsers(sub) -> None:
     rep = _add(sub, "report", "re-render a run folder's report.html and summary.json, e.g. at "
                "another interval level", "bayesirl report park-run --level 0.5", _report)
     rep.add_argument("run", help="run folder made by bayesirl fit")
-    rep.add_argument("--level", type=_level, default=0.9,
+    rep.add_argument("--level", type=_level,
                      help="credible level of the intervals, verdicts and policy-risk bound "
-                          "(default 0.9)")
-    rep.add_argument("--tolerance", type=float, metavar="T",
-                     help="precision that matters, in reward units: a weight is determined "
-                          "when its interval excludes zero and its half-width is <= T "
-                          "(default: within a factor of 2 of its own size)")
+                          "(default: [report] level in the problem file, else 0.9)")
+    rep.add_argument("--tolerance", type=float, metavar="T", help=TOLERANCE_HELP)
     rep.add_argument("--states", metavar="S,S,...",
                      help="states whose action probabilities to report, e.g. 0,8,24")
     rep.add_argument("--suggestions", action="store_true",

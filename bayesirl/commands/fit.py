@@ -9,7 +9,14 @@ from pathlib import Path
 import bayesirl
 from bayesirl import arviz_compat
 from bayesirl.commands import mass
-from bayesirl.commands.runs import inputs_record, save_draws, say, started_summary, write_report
+from bayesirl.commands.runs import (
+    inputs_record,
+    report_choice,
+    save_draws,
+    say,
+    started_summary,
+    write_report,
+)
 from bayesirl.commands.signals import acknowledge, held
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
@@ -131,14 +138,20 @@ def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bo
         _remove(RunFolder(stage.target).checkpoint)
         return _report_skipped(RunFolder(stage.target))
     return render(args, RunFolder(stage.target), done["posterior"], summary,
-                  problem.action_names)
+                  problem.action_names, problem.report)
 
 
-def render(args, out: RunFolder, posterior, summary: dict, action_names=None) -> int:
-    """Write the report of a finished run already in place; a signal leaves the draws."""
+def render(args, out: RunFolder, posterior, summary: dict, action_names=None,
+           defaults: dict | None = None) -> int:
+    """Write the report of a finished run already in place; a signal leaves the draws.
+
+    ``defaults`` is the problem file's ``[report]`` table (level, tolerance); the command
+    line's ``--level`` / ``--tolerance`` override it."""
     try:
         _remove(out.checkpoint)  # a finished run needs no sampler state
-        write_report(out, posterior, summary, args.level, args.quiet,
+        settings = report_choice(args, defaults)
+        write_report(out, posterior, {**summary, "report_settings": settings},
+                     settings["level"], args.quiet, tolerance=settings["tolerance"],
                      action_names=action_names)
     except KeyboardInterrupt:
         acknowledge()

@@ -81,14 +81,14 @@ def _check_inputs(record: dict) -> None:
 
 
 def _render_in_place(args, run: RunFolder, summary: dict) -> int:
-    from bayesirl.commands.views import load_posterior
+    from bayesirl.commands.views import load_posterior, problem_defaults
 
     posterior = load_posterior(run)
     if not posterior.complete:
         raise InputError(f"{run.posterior}: holds an incomplete run, but {run.summary} says "
                          "complete; the folder was changed by hand")
     say(args, f"{run.root}: sampling had finished; writing the report")
-    return render(args, run, posterior, summary)
+    return render(args, run, posterior, summary, defaults=problem_defaults(summary))
 
 
 def resume_command(args) -> int:

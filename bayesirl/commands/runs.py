@@ -87,6 +87,18 @@ def started_summary(record: dict) -> dict:
             "note": "sampling: if this run was killed, continue it with bayesirl fit --resume"}
 
 
+def report_choice(args, defaults: dict | None) -> dict:
+    """The report's ``level`` and ``tolerance``: the command line's when given, else the
+    problem file's ``[report]`` table (``defaults``), else 0.9 and none."""
+    from bayesirl.report.verdicts import check_tolerance
+
+    defaults = defaults or {}
+    level = getattr(args, "level", None)
+    tolerance = check_tolerance(getattr(args, "tolerance", None))
+    return {"level": defaults.get("level", DEFAULT_LEVEL) if level is None else level,
+            "tolerance": defaults.get("tolerance") if tolerance is None else tolerance}
+
+
 def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAULT_LEVEL,
                  quiet: bool = False, **options) -> dict:
     """``report.html`` and the report's numbers in ``summary.json`` (draws already saved).

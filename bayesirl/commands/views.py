@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from bayesirl.commands.demonstrators import demonstrator_lines
-from bayesirl.commands.runs import say, write_report
+from bayesirl.commands.runs import report_choice, say, write_report
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
 from bayesirl.io import RunFolder, read_demonstrations, read_problem
@@ -58,13 +58,26 @@ def render_report(run: RunFolder, summary: dict, posterior, settings: dict,
 def _action_names(summary: dict, posterior):
     """The problem file's action names (a map's moves), if the file still reads as the same
     problem; None otherwise (the table then numbers the actions)."""
-    try:
-        problem = read_problem(summary["problem"])
-    except (InputError, OSError, KeyError, TypeError):
+    problem = _problem_of(summary)
+    if problem is None:
         return None
     names = problem.action_names
     n = posterior.model.likelihood.mdp.n_actions
     return list(names) if names and len(names) == n else None
+
+
+def _problem_of(summary: dict):
+    """The run's problem file, if it still reads as a problem; None otherwise."""
+    try:
+        return read_problem(summary["problem"])
+    except (InputError, OSError, KeyError, TypeError):
+        return None
+
+
+def problem_defaults(summary: dict) -> dict | None:
+    """The run's problem file's ``[report]`` table (level, tolerance), if it still reads."""
+    problem = _problem_of(summary)
+    return None if problem is None else problem.report
 
 
 def _stored_suggestions(run: RunFolder):
@@ -78,8 +91,6 @@ def _stored_suggestions(run: RunFolder):
 
 def report_command(args) -> int:
     """Re-render a run folder's report (and summary) at another level, tolerance or states."""
-    from bayesirl.report.verdicts import check_tolerance
-
     run = RunFolder(Path(args.run))
     summary = run.read_summary()
     posterior = load_posterior(run, summary)
@@ -91,13 +102,12 @@ def report_command(args) -> int:
         raise InputError(f"{run.root}: separate rewards per demonstrator have no population "
                          "to report on; see summary.json (demonstrators) and "
                          "demonstrators.png")
-    tolerance = check_tolerance(getattr(args, "tolerance", None))
     n_states = posterior.model.likelihood.mdp.n_states
-    settings = {"level": args.level, "tolerance": tolerance,
+    settings = {**report_choice(args, problem_defaults(summary)),
                 "states": parse_states(getattr(args, "states", None), n_states)}
     extra = _stored_suggestions(run) if getattr(args, "suggestions", False) else None
     render_report(run, summary, posterior, settings, extra, args.quiet)
-    say(args, f"wrote {run.report} and {run.summary} at the {args.level:.0%} level")
+    say(args, f"wrote {run.report} and {run.summary} at the {settings['level']:.0%} level")
     return 0
 
 

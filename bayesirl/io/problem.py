@@ -15,13 +15,19 @@ from bayesirl.errors import InputError
 from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml, path_argument
 from bayesirl.io.pooling import pooling_from
-from bayesirl.io.settings import prior_from, rationality_from, sampler_from, solver_from
+from bayesirl.io.settings import (
+    prior_from,
+    rationality_from,
+    report_from,
+    sampler_from,
+    solver_from,
+)
 from bayesirl.model import TabularMDP
 from bayesirl.posterior.groups import Pooling
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "solver", "pooling"}
+            "solver", "pooling", "report"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -43,6 +49,7 @@ class Problem:
     source : the problem file
     blocked : states that demonstrations may never visit (blocked map cells)
     pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
+    report : the report's ``level`` and optional ``tolerance`` (``[report]``)
     """
 
     mdp: TabularMDP
@@ -58,6 +65,7 @@ class Problem:
     blocked: frozenset = field(default_factory=frozenset)
     solver: dict = field(default_factory=dict)
     pooling: Pooling = field(default_factory=Pooling)
+    report: dict = field(default_factory=lambda: {"level": 0.9})
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -144,4 +152,5 @@ def read_problem(path) -> Problem:
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
         solver=solver_from(top.table("solver", {})),
         pooling=pooling_from(top.table("pooling", {}), features),
+        report=report_from(top.table("report", {})),
     )

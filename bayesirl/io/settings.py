@@ -122,3 +122,14 @@ def solver_from(table: Table) -> dict:
             raise table.fail(key, value, f"an integer between 1 and {most}")
         out[key] = value
     return out
+
+
+def report_from(table: Table) -> dict:
+    """``[report]``: the credible ``level`` and the ``tolerance`` (reward units) the report's
+    verdicts use; command-line ``--level`` / ``--tolerance`` override them."""
+    table.only({"level", "tolerance"})
+    out = {"level": table.number("level", 0.9, low=0.0, high=1.0, low_open=True,
+                                 high_open=True)}
+    if "tolerance" in table:
+        out["tolerance"] = table.number("tolerance", low=0.0, low_open=True)
+    return out
