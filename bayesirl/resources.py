@@ -14,6 +14,10 @@ from bayesirl.errors import InputError
 
 MAX_CHAINS = 1000  # more chains than this is a typo, not a plan: each is a process's work
 MAX_HORIZON = 10**6  # the finite-horizon solver keeps a policy per step
+# A suggestion's gain within this many standard errors of zero is "no measurable gain": a mutual
+# information is never negative, and an estimate that noisy says nothing about its size (two
+# standard errors: common practice).
+MEASURABLE_Z = 2.0
 MAX_BUDGET = 100  # demonstrations chosen together by suggest: each pick re-scores all
 MEMORY_SHARE = 0.5
 STATS_PER_DRAW = 8  # sampler statistics kept beside each draw (step size, depth, ...)

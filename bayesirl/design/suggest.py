@@ -18,7 +18,7 @@ from bayesirl.design.work import LocalBackend, groups
 from bayesirl.errors import InputError
 from bayesirl.posterior import cluster as dask_cluster
 from bayesirl.posterior.progress import StatusLine
-from bayesirl.resources import MAX_BUDGET
+from bayesirl.resources import MAX_BUDGET, MEASURABLE_Z
 
 KINDS = ("start-states", "query-states")
 
@@ -40,6 +40,10 @@ class Suggestion(NamedTuple):
     p_best: float = float("nan")  # greedy picks: P(this pick is the best at its step)
     rank_interval: tuple = ()  # greedy picks: 90% interval of its rank at its step
     settled: bool = False  # greedy picks: p_best >= ranking.SETTLED
+    # The Monte-Carlo estimate before ``gain`` is clipped to the bound (an information gain is
+    # never negative; clipping can only bring an estimate closer to the true value).
+    gain_estimate: float = float("nan")
+    measurable: bool = False  # gain_estimate - MEASURABLE_Z * stderr > 0
 
 
 def _parse_candidates(candidates, n_states: int) -> tuple[list[str], np.ndarray, bool]:
@@ -259,6 +263,8 @@ def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
 def _record(sc, i, kinds, states, explicit, sd_now, step) -> Suggestion:
     label = f"{kinds[i]}:{int(states[i])}" if explicit else int(states[i])
     sd = float(sc.target_sd[i])
-    return Suggestion(label, float(sc.gain[i]), float(sc.stderr[i]), sd,
+    raw, se = float(sc.gain[i]), float(sc.stderr[i])
+    return Suggestion(label, max(raw, 0.0), se, sd,
                       sd_now - sd if np.isfinite(sd) else float("nan"), kinds[i],
-                      int(states[i]), step, current_sd=sd_now)
+                      int(states[i]), step, current_sd=sd_now, gain_estimate=raw,
+                      measurable=bool(raw - MEASURABLE_Z * se > 0.0))

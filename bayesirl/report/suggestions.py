@@ -14,22 +14,20 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.resources import MEASURABLE_Z
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
 # The map stays readable with this many numbered markers; the table lists them all.
 MAP_TOP = 5
+NO_GAIN = "no measurable gain"
 TABLE_TOP = 15
 FIELDS = ("candidate", "gain", "stderr", "target_sd", "target_reduction", "kind", "state",
           "step", "current_sd", "cumulative_gain", "cumulative_stderr", "p_best",
-          "rank_interval", "settled")
+          "rank_interval", "settled", "gain_estimate", "measurable")
 FLOATS = ("gain", "stderr", "target_sd", "target_reduction", "current_sd", "cumulative_gain",
-          "cumulative_stderr", "p_best")
-# A gain within this many standard errors of zero is shown as "no measurable gain": a mutual
-# information is never negative, and an estimate that noisy says nothing about its size
-# (two standard errors: common practice).
-MEASURABLE_Z = 2.0
+          "cumulative_stderr", "p_best", "gain_estimate")
 
 
 def _finite(x) -> float | None:
@@ -56,6 +54,11 @@ def as_records(suggestions) -> list[dict]:
             rec[f] = None if rec[f] is None else int(rec[f])
         rec["rank_interval"] = [int(x) for x in rec["rank_interval"] or ()] or None
         rec["settled"] = None if rec["settled"] is None else bool(rec["settled"])
+        if rec["gain"] is not None:  # older files and hand-made records: the raw estimate
+            rec["gain_estimate"] = rec["gain"] if rec["gain_estimate"] is None else \
+                rec["gain_estimate"]
+            rec["gain"] = max(rec["gain"], 0.0)
+            rec["measurable"] = gain_text(rec) != NO_GAIN
         if not isinstance(rec["candidate"], str):
             rec["candidate"] = int(rec["candidate"])
         out.append(rec)
@@ -65,8 +68,10 @@ def as_records(suggestions) -> list[dict]:
 def gain_text(rec: dict) -> str:
     """The gain for a reader: never negative, "no measurable gain" when within noise."""
     gain, se = rec.get("gain"), rec.get("stderr") or 0.0
+    estimate = rec.get("gain_estimate")
+    gain = gain if estimate is None else estimate
     if gain is None or gain - MEASURABLE_Z * se <= 0.0:
-        return "no measurable gain"
+        return NO_GAIN
     return f"{gain:.3g} \u00b1 {se:.2g}"
 
 

@@ -67,5 +67,5 @@ def test_a_start_candidates_gain_does_not_depend_on_the_others():
     for r in few:
         assert (r.gain, r.stderr) == (full[r.state].gain, full[r.state].stderr)
     # Negative control: another seed simulates other demonstrations from state 2.
-    again = {r.state: r.gain for r in bi.suggest(post, [9, 2], **{**kw, "seed": 3})}
-    assert again[2] != full[2].gain
+    again = {r.state: r.gain_estimate for r in bi.suggest(post, [9, 2], **{**kw, "seed": 3})}
+    assert again[2] != full[2].gain_estimate

@@ -52,3 +52,26 @@ def test_html_section_has_table_and_map(park):
     assert page.count("<tr>") == 1 + 15  # header and the first 15 suggestions
     empty = render(SimpleNamespace(suggestions=[], posterior=post, level=0.9))
     assert empty == ""
+
+
+def test_no_record_holds_a_negative_gain(park):
+    # A mutual information is never negative: records clip the estimate to the bound and keep
+    # the raw Monte-Carlo estimate beside it.
+    _, ranked = park
+    for r in ranked:
+        assert r.gain >= 0.0 and r.gain == max(r.gain_estimate, 0.0)
+        assert r.measurable == (r.gain_estimate - 2.0 * r.stderr > 0.0)
+    recs = as_records(ranked)
+    assert all(rec["gain"] >= 0.0 for rec in recs)
+    assert [rec["gain_estimate"] for rec in recs] == pytest.approx(
+        [r.gain_estimate for r in ranked])
+
+
+def test_a_negative_estimate_is_clipped_and_not_measurable():
+    rec = {"candidate": 3, "gain": -0.04, "stderr": 0.03, "state": 3, "kind": "query",
+           "step": 1}
+    out = as_records([rec])[0]
+    assert out["gain"] == 0.0 and out["gain_estimate"] == -0.04 and out["measurable"] is False
+    # negative control: a clear gain stays as it is and is measurable
+    out = as_records([{**rec, "gain": 0.5}])[0]
+    assert out["gain"] == 0.5 and out["gain_estimate"] == 0.5 and out["measurable"] is True
