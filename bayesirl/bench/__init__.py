@@ -11,9 +11,9 @@ import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
-from bayesirl.bench import design, engine, large, large_report, report, sampler
+from bayesirl.bench import design, engine, large, large_report, report, ridge, sampler
 
-SUITES = ("engine", "sampler", "design")
+SUITES = ("engine", "sampler", "design", "ridge")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -28,6 +28,9 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
+    if "ridge" in only:
+        log("ridge: diagonal and dense mass matrix on a collinear pair")
+        results["ridge"] = ridge.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 
