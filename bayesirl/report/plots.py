@@ -54,7 +54,7 @@ def _legend_above(fig: Figure, ax, title: str) -> None:
     """The figure's title and one legend for all panels, in a strip above them."""
     handles, labels = ax.get_legend_handles_labels()
     fig.suptitle(title, fontsize=10, color=INK)
-    fig.tight_layout(rect=(0, 0, 1, 0.86 if len(fig.axes) <= 4 else 0.93))
+    fig.tight_layout(rect=(0, 0, 1, 0.9 if len(fig.axes) <= 4 else 0.94))
     fig.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 0.95),
                ncol=len(labels), fontsize=8, frameon=False)
 

@@ -133,3 +133,22 @@ def test_table_reader_needs_a_table():
     # Negative control for the parser the checks rely on: text outside a table is no table.
     assert Tables("<p>mud 1.0</p>").tables == []
     assert Tables("<table><tr><td>mud</td></tr></table>").tables == [[["mud"]]]
+
+
+def python_section(readme: str) -> str:
+    """The README's "From Python" section, up to the next heading of its level."""
+    found = re.search(r"^## From Python\n(.*?)(?=^## )", readme, flags=re.S | re.M)
+    return found.group(1) if found else ""
+
+
+def starts_from_notebook(section: str) -> bool:
+    first = section.strip().split("\n\n")[0]
+    return "examples/park.ipynb" in first
+
+
+def test_readme_python_section_starts_from_the_notebook():
+    readme = (EXAMPLES.parent / "README.md").read_text(encoding="utf-8")
+    assert starts_from_notebook(python_section(readme))
+    assert NOTEBOOK.is_file()
+    # Negative control: a section that opens with a code block does not count.
+    assert not starts_from_notebook("\n```python\nimport bayesirl\n```\n\nexamples/park.ipynb")
