@@ -140,3 +140,12 @@ def test_report_with_suggestions_shows_them(park_report):
     assert "Where to demonstrate next" in html
     assert "0.41 \u00b1 0.03" in Cells(html).cells
     assert "Where to demonstrate next" not in park_report._repr_html_()
+
+
+def test_posterior_without_draws_says_so(park_report):
+    # An interrupted run still in warm-up has zero draws: the display says so, no table.
+    post = copy.copy(park_report.posterior)
+    post.weights = post.weights[:, :0]
+    html = post._repr_html_()
+    assert "No draws yet" in html and Cells(html).cells == []
+    assert "No draws yet" not in park_report.posterior._repr_html_()
