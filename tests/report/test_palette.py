@@ -86,9 +86,9 @@ def neighbours():
     return pairs
 
 
-def test_simulation_reproduces_published_behaviour():
-    # The simulation itself: deuteranopia keeps white white (rows sum to 1 in the paper's
-    # matrices) and collapses pure red and green onto similar yellows, less so blue.
+def test_simulation_keeps_white_white():
+    # A transcription check: each row of the paper's matrices sums to 1 (to their six
+    # decimals), so white (and every grey) is seen unchanged.
     assert np.allclose(DEUTERANOPIA.sum(axis=1), 1.0, atol=1e-5)
     assert np.allclose(PROTANOPIA.sum(axis=1), 1.0, atol=1e-5)
     assert np.allclose(simulate(WHITE, DEUTERANOPIA), [100.0, 0.0, 0.0], atol=0.05)
