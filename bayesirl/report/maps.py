@@ -77,11 +77,11 @@ def _paths(ax, episodes, rows: int, cols: int) -> None:
         # spread any number of episodes evenly over the offset range).
         dx = ((k * 0.618034) % 1.0 - 0.5) * 0.3
         dy = ((k * 0.381966) % 1.0 - 0.5) * 0.3
-        ax.plot(c + dx, r + dy, color="#1a1a1a", lw=0.9, alpha=0.7, path_effects=HALO)
+        ax.plot(c + dx, r + dy, color=palette.PATH, lw=0.9, alpha=0.7, path_effects=HALO)
     starts = [int(st[0]) for st, _ in episodes if st[0] < rows * cols]
     if starts:
         r0, c0 = np.divmod(np.unique(starts), cols)
-        ax.scatter(c0, r0, s=60, facecolor="white", edgecolor="#111111", lw=1.5, zorder=3,
+        ax.scatter(c0, r0, s=60, facecolor="white", edgecolor=palette.MARKER_EDGE, lw=1.5, zorder=3,
                    label="start")
 
 
@@ -170,7 +170,7 @@ def state_rewards(posterior, level: float) -> Figure | None:
     colour = np.where(visited[states], palette.VISITED, palette.UNVISITED)
     ax.vlines(x, lo[states], hi[states], colors=colour, lw=2.2, alpha=0.8)
     ax.scatter(x, med[states], c=colour, s=14, zorder=3)
-    ax.axhline(0.0, color="#888888", lw=0.8)
+    ax.axhline(0.0, color=palette.ZERO_LINE, lw=0.8)
     ax.set_xticks(x[:: max(1, x.shape[0] // 20)])
     ax.set_xticklabels([str(s) for s in states[:: max(1, x.shape[0] // 20)]], fontsize=7)
     ax.set_xlabel("state (blue: visited by the demonstrations, orange: never visited)",

@@ -49,6 +49,13 @@ UNVISITED = OKABE_ITO["orange"]
 SERIES = tuple(OKABE_ITO[k] for k in ("blue", "orange", "black", "sky blue"))
 SERIES_STYLES = ("-", "--", "-.", ":", (0, (5, 1)), (0, (3, 1, 1, 1)))
 
+# Marks drawn over a map (demonstrated paths, start and suggestion markers): near-black on a
+# white halo or fill, so they show on the darkest and the lightest cells alike.
+PATH = "#1a1a1a"
+MARKER_EDGE = "#111111"
+# The zero line of a plot of rewards.
+ZERO_LINE = "#888888"
+
 # Colour maps (matplotlib names).
 REWARD_MAP = "cividis"
 WIDTH_MAP = "YlGnBu"

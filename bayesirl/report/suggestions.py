@@ -155,7 +155,7 @@ def suggestion_map(posterior, records: list[dict], level: float) -> Figure | Non
     for ((r, c), kind), ranks in marks.items():
         # Squares ask for one action, circles for a whole demonstration.
         ax.scatter(c, r, s=260 * len(ranks), marker="s" if kind == "query" else "o",
-                   facecolor="white", edgecolor="#111111", lw=1.5, zorder=3)
+                   facecolor="white", edgecolor=palette.MARKER_EDGE, lw=1.5, zorder=3)
         ax.text(c, r, ",".join(ranks), ha="center", va="center", fontsize=8, zorder=4)
     ax.set_title("where to demonstrate next: top suggestions (1 = first)", fontsize=10)
     ax.set_xlabel("column", fontsize=8)

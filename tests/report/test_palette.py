@@ -17,6 +17,9 @@ grey-scale (about 9 JNDs, from lightness alone) and 20 in CIE76 under each simul
 
 from __future__ import annotations
 
+import re
+from pathlib import Path
+
 import numpy as np
 import pytest
 from matplotlib import colormaps
@@ -147,3 +150,21 @@ def test_diverging_map_fails_the_order_check():
     # grey-scale copy cannot tell a large positive from a large negative reward.
     steps = lightness_steps("RdBu", None)
     assert not (np.all(steps > 0) or np.all(steps < 0))
+
+
+HEX = re.compile(r"[\"']#[0-9a-fA-F]{6}[\"']")
+# The page's style sheet (text colours, each with its word beside it) is not a figure.
+NOT_FIGURES = {"palette.py", "html_parts.py"}
+
+
+def hard_coded_colours(text: str) -> list[str]:
+    return HEX.findall(text)
+
+
+def test_figures_take_their_colours_from_the_palette():
+    report = Path(palette.__file__).parent
+    found = {p.name: hard_coded_colours(p.read_text()) for p in sorted(report.glob("*.py"))
+             if p.name not in NOT_FIGURES}
+    assert {k: v for k, v in found.items() if v} == {}
+    # Negative control: a colour written into a figure module is found.
+    assert hard_coded_colours('ax.plot(x, color="#1a1a1a")') == ['"#1a1a1a"']
