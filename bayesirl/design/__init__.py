@@ -3,6 +3,7 @@
 Layer 7 (beside the report): builds on the posterior, the model and the solver.
 """
 
+from bayesirl.design.listing import Suggestions
 from bayesirl.design.suggest import Suggestion, suggest
 
-__all__ = ["Suggestion", "suggest"]
+__all__ = ["Suggestion", "Suggestions", "suggest"]

@@ -12,6 +12,7 @@ import numpy as np
 from bayesirl.design import estimators as est
 from bayesirl.design import ranking
 from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
+from bayesirl.design.listing import Suggestions
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
@@ -160,11 +161,12 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
 
     Returns
     -------
-    list of Suggestion
-        The ``budget`` greedy picks in order (``step`` 1..k, with the cumulative gain of the
-        batch so far, the probability that the pick is the best at its step and its rank
-        interval, see :mod:`bayesirl.design.ranking`), then every other candidate ranked by
-        its gain at the last step (``step`` 0). Query-state gains at the first
+    Suggestions
+        A list of Suggestion (a notebook shows it as a table): the ``budget`` greedy
+        picks in order (``step`` 1..k, with the cumulative gain of the batch so far, the
+        probability that the pick is the best at its step and its rank interval, see
+        :mod:`bayesirl.design.ranking`), then every other candidate ranked by its gain at the
+        last step (``step`` 0). Query-state gains at the first
         step are exact over actions given the draws; ``stderr`` is then their error from
         the finite set of draws (treated as independent). Other gains are nested
         Monte-Carlo estimates and ``stderr`` is the outer-sample standard error.
@@ -191,8 +193,8 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     status = StatusLine(enabled=progress)
     try:
         with _backend(cluster, policies, gg, outer) as backend:
-            return _greedy(backend, policies, kinds, states, explicit, budget, length, g,
-                           seed, status)
+            return Suggestions(_greedy(backend, policies, kinds, states, explicit, budget,
+                                       length, g, seed, status), grid_shape=mdp.grid_shape)
     finally:
         status.close()
 

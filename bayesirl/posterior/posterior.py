@@ -149,6 +149,12 @@ class Posterior:
         return (f"Posterior(features={list(self.feature_names)}, chains={self.n_chains}, "
                 f"draws={self.n_draws}{'' if self.complete else ', complete=False'})")
 
+    def _repr_html_(self) -> str:
+        """Notebook display: the summary table and the diagnostics (escaped HTML)."""
+        from bayesirl.posterior.notebook import posterior_html
+
+        return posterior_html(self)
+
     # -- ArviZ and files ---------------------------------------------------------------
     def to_arviz(self):
         """ArviZ's container with posterior, sample_stats and the problem as constant_data.

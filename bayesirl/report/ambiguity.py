@@ -67,6 +67,12 @@ class AmbiguityReport:
     def __str__(self) -> str:
         return self.table()
 
+    def _repr_html_(self) -> str:
+        """Notebook display: verdict, weights table, key figures, suggestions (escaped)."""
+        from bayesirl.report.notebook import report_html
+
+        return report_html(self)
+
 
 def _diagnostics(posterior) -> dict:
     d = posterior.diagnostics

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from matplotlib.figure import Figure
 
-from bayesirl.report.plots import INK, POSTERIOR, PRIOR, style_axes
+from bayesirl.report.plots import INK, POSTERIOR, PRIOR, WEIGHT_UNITS, style_axes
 
 _WORDS = {"differ": "demonstrators differ", "agree": "demonstrators agree",
           "unclear": "cannot tell", "pinned": "pinned"}
@@ -42,6 +42,8 @@ def forest_figure(record: dict) -> Figure:
                     mfc="white" if label == "new demonstrator" else colour)
         ax.set_yticks(range(len(rows)))
         ax.set_yticklabels(rows[::-1] if i == 0 else [])
+        ax.set_xlabel(f"weight ({WEIGHT_UNITS})", fontsize=8)
+        ax.set_ylabel("demonstrator", fontsize=8)
         word = _WORDS.get(verdicts.get(name, ""), "")
         ax.set_title(f"{name}" + (f"\n{word}" if word else ""), fontsize=9, color=INK)
     fig.suptitle(f"weights per demonstrator, {record['level']:.0%} intervals "

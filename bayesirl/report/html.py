@@ -266,7 +266,7 @@ def _maps(report) -> str:
             f"This problem has no grid, so the reward is shown per state: the posterior median "
             f"(dot) and {report.level:.0%} interval (bar) of each state's reward (for "
             f"state-action features, the mean over actions). States the demonstrations never "
-            f"visited are red; up to {maps.MAX_STATE_BARS} states are drawn (the most "
+            f"visited are orange; up to {maps.MAX_STATE_BARS} states are drawn (the most "
             "uncertain ones when there are more).", "No states to draw."))
     return section("maps", figure(
         fig, "grid maps of posterior-mean reward and interval width with demonstrated paths",

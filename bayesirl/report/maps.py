@@ -10,6 +10,7 @@ import numpy as np
 from matplotlib import patheffects
 from matplotlib.figure import Figure
 
+from bayesirl.report import palette
 from bayesirl.report.plots import style_axes
 from bayesirl.report.weights import flat_draws
 
@@ -76,11 +77,11 @@ def _paths(ax, episodes, rows: int, cols: int) -> None:
         # spread any number of episodes evenly over the offset range).
         dx = ((k * 0.618034) % 1.0 - 0.5) * 0.3
         dy = ((k * 0.381966) % 1.0 - 0.5) * 0.3
-        ax.plot(c + dx, r + dy, color="#1a1a1a", lw=0.9, alpha=0.7, path_effects=HALO)
+        ax.plot(c + dx, r + dy, color=palette.PATH, lw=0.9, alpha=0.7, path_effects=HALO)
     starts = [int(st[0]) for st, _ in episodes if st[0] < rows * cols]
     if starts:
         r0, c0 = np.divmod(np.unique(starts), cols)
-        ax.scatter(c0, r0, s=60, facecolor="white", edgecolor="#111111", lw=1.5, zorder=3,
+        ax.scatter(c0, r0, s=60, facecolor="white", edgecolor=palette.MARKER_EDGE, lw=1.5, zorder=3,
                    label="start")
 
 
@@ -117,12 +118,14 @@ def reward_maps(posterior, level: float) -> Figure | None:
     aspect = rows / cols
     fig = Figure(figsize=(11.0, max(3.0, 4.6 * aspect + 0.8)))
     ax_m, ax_w = fig.add_subplot(1, 2, 1), fig.add_subplot(1, 2, 2)
-    # Symmetric limits put zero reward at the neutral middle of the diverging scale.
+    # Symmetric limits put zero reward at the middle of the scale (cividis: lightness rises
+    # from the most negative to the most positive reward, so grey-scale keeps the order).
     top = float(np.max(np.abs(mean))) or 1.0
-    _panel(fig, ax_m, mean, "RdBu", -top, top, "posterior-mean reward per cell", "reward")
+    _panel(fig, ax_m, mean, palette.REWARD_MAP, -top, top, "posterior-mean reward per cell",
+           "reward (reward units)")
     # Light at zero width, so the well-determined cells read as quiet background.
-    _panel(fig, ax_w, width, "YlGnBu", 0.0, float(width.max()) or 1.0,
-           f"width of the {level:.0%} interval per cell", "interval width")
+    _panel(fig, ax_w, width, palette.WIDTH_MAP, 0.0, float(width.max()) or 1.0,
+           f"width of the {level:.0%} interval per cell", "interval width (reward units)")
     for ax in (ax_m, ax_w):
         _paths(ax, episodes, rows, cols)
         ax.set_xlim(-0.5, cols - 0.5)
@@ -164,15 +167,15 @@ def state_rewards(posterior, level: float) -> Figure | None:
     fig = Figure(figsize=(min(11.0, 3.0 + 0.18 * states.shape[0]), 3.4))
     ax = fig.add_subplot(1, 1, 1)
     x = np.arange(states.shape[0])
-    colour = np.where(visited[states], "#2b5d8a", "#a33b20")
+    colour = np.where(visited[states], palette.VISITED, palette.UNVISITED)
     ax.vlines(x, lo[states], hi[states], colors=colour, lw=2.2, alpha=0.8)
     ax.scatter(x, med[states], c=colour, s=14, zorder=3)
-    ax.axhline(0.0, color="#888888", lw=0.8)
+    ax.axhline(0.0, color=palette.ZERO_LINE, lw=0.8)
     ax.set_xticks(x[:: max(1, x.shape[0] // 20)])
     ax.set_xticklabels([str(s) for s in states[:: max(1, x.shape[0] // 20)]], fontsize=7)
-    ax.set_xlabel("state (blue: visited by the demonstrations, red: never visited)",
+    ax.set_xlabel("state (blue: visited by the demonstrations, orange: never visited)",
                   fontsize=8)
-    ax.set_ylabel("reward", fontsize=8)
+    ax.set_ylabel("reward (reward units)", fontsize=8)
     ax.set_title(f"posterior-median reward per state with its {level:.0%} interval",
                  fontsize=10)
     style_axes(ax)

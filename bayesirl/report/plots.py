@@ -14,14 +14,13 @@ import numpy as np
 from matplotlib.figure import Figure
 from scipy import stats
 
+from bayesirl.report import palette
+from bayesirl.report.palette import INK, POSTERIOR, PRIOR, TRUTH
 from bayesirl.report.weights import flat_draws
 
-# Our own muted palette: posterior in slate blue, prior in rust, truth in dark green.
-INK = "#22303c"
-POSTERIOR = "#3d6b8c"
-PRIOR = "#b5562b"
-TRUTH = "#2e6b3a"
-CHAIN_COLOURS = ("#3d6b8c", "#b5562b", "#6a8f3c", "#8a4f8f", "#c28f1c", "#4a4a4a")
+__all__ = ["INK", "POSTERIOR", "PRIOR", "TRUTH"]  # re-exported: figures import them from here
+# Axis labels shared by the figures: a weight multiplies a feature value to give reward.
+WEIGHT_UNITS = "reward per unit of feature"
 DPI = 96
 # Scatter plots thin to this many evenly spaced draws: more points only overplot.
 MAX_SCATTER = 1500
@@ -51,12 +50,13 @@ def style_axes(ax) -> None:
     ax.title.set_color(INK)
 
 
-def _legend_above(fig: Figure, ax) -> None:
-    """One legend for all panels, in a strip above them, so it never covers data."""
+def _legend_above(fig: Figure, ax, title: str) -> None:
+    """The figure's title and one legend for all panels, in a strip above them."""
     handles, labels = ax.get_legend_handles_labels()
-    fig.tight_layout(rect=(0, 0, 1, 0.9 if len(fig.axes) <= 4 else 0.95))
-    fig.legend(handles, labels, loc="upper center", ncol=len(labels), fontsize=8,
-               frameon=False)
+    fig.suptitle(title, fontsize=10, color=INK)
+    fig.tight_layout(rect=(0, 0, 1, 0.9 if len(fig.axes) <= 4 else 0.94))
+    fig.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 0.95),
+               ncol=len(labels), fontsize=8, frameon=False)
 
 
 def _grid(n: int, width: float = 3.0, height: float = 2.4, max_cols: int = 4):
@@ -138,9 +138,12 @@ def marginals(posterior, table: list[dict], level: float) -> Figure | None:
         if truth:
             ax.axvline(truth[0], color=TRUTH, lw=1.5, label="true value")
         ax.set_title(row["feature"], fontsize=10)
+        ax.set_xlabel(f"weight ({WEIGHT_UNITS})", fontsize=8)
+        ax.set_ylabel("density", fontsize=8)
         ax.set_yticks([])
         style_axes(ax)
-    _legend_above(fig, axes[0])
+    _legend_above(fig, axes[0], f"posterior of each weight against its prior, {level:.0%} "
+                  "interval shaded")
     return fig
 
 
@@ -189,10 +192,12 @@ def pairs(posterior, table: list[dict], k: int = 3) -> Figure | None:
     fig, axes = _grid(len(found), width=3.5, height=3.2, max_cols=3)
     for ax, (i, j, r) in zip(axes, found, strict=True):
         ax.scatter(draws[idx, i], draws[idx, j], s=5, color=POSTERIOR, alpha=0.35, lw=0)
-        ax.set_xlabel(table[i]["feature"], fontsize=9)
-        ax.set_ylabel(table[j]["feature"], fontsize=9)
+        ax.set_xlabel(f"{table[i]['feature']} weight ({WEIGHT_UNITS})", fontsize=8)
+        ax.set_ylabel(f"{table[j]['feature']} weight", fontsize=8)
         ax.set_title(f"correlation {r:+.2f}", fontsize=10)
         style_axes(ax)
+    fig.suptitle("posterior draws of the most correlated pairs of weights", fontsize=10,
+                 color=INK)
     fig.tight_layout()
     return fig
 
@@ -232,18 +237,21 @@ def ranks(posterior) -> Figure | None:
     edges = np.linspace(0, n_chains * n_draws, bins + 1)
     for ax, (name, x) in zip(axes, cols, strict=True):
         r = stats.rankdata(x.ravel()).reshape(x.shape)
-        ax.axhspan(expect - half, expect + half, color="#d9dee3", lw=0)
-        ax.axhline(expect, color="#8a96a3", lw=1)
+        ax.axhspan(expect - half, expect + half, color=palette.BAND, lw=0)
+        ax.axhline(expect, color=palette.BAND_LINE, lw=1)
         for c in range(n_chains):
             counts, _ = np.histogram(r[c], bins=edges)
-            ax.stairs(counts, edges, baseline=None, lw=1.5,
-                      color=CHAIN_COLOURS[c % len(CHAIN_COLOURS)], label=f"chain {c}")
+            colour, style = palette.series(c)
+            ax.stairs(counts, edges, baseline=None, lw=1.5, color=colour, ls=style,
+                      label=f"chain {c}")
         ax.set_title(name, fontsize=10)
+        ax.set_xlabel("rank among all chains' draws (low to high)", fontsize=8)
+        ax.set_ylabel("draws per bin", fontsize=8)
         ax.set_xticks([])
         ax.set_ylim(0, max(expect + 2 * half, ax.get_ylim()[1]))
         style_axes(ax)
-    axes[0].plot([], [], color="#d9dee3", lw=6, label="95% band, exchangeable draws")
-    _legend_above(fig, axes[0])
+    axes[0].plot([], [], color=palette.BAND, lw=6, label="95% band, exchangeable draws")
+    _legend_above(fig, axes[0], "rank histograms per chain: flat when the chains agree")
     return fig
 
 
@@ -273,7 +281,9 @@ def risk(policy_risk: dict) -> Figure | None:
     ax.axvline(policy_risk["mean"], color=INK, lw=1.2, ls=":",
                label=f"mean {policy_risk['mean']:.3g}")
     ax.set_xlabel("loss in expected value from the start states (reward units)", fontsize=9)
-    ax.set_ylabel("draws", fontsize=9)
+    ax.set_ylabel("posterior draws", fontsize=9)
+    ax.set_title("loss of acting on the posterior-mean reward, per posterior draw",
+                 fontsize=10)
     ax.legend(fontsize=8, frameon=False)
     style_axes(ax)
     fig.tight_layout()

@@ -137,7 +137,7 @@ def suggestion_map(posterior, records: list[dict], level: float) -> Figure | Non
     # Plotting is imported here: ambiguity() (and `bayesirl check`) need only as_records.
     from matplotlib.figure import Figure
 
-    from bayesirl.report import maps
+    from bayesirl.report import maps, palette
     from bayesirl.report.plots import style_axes
 
     summary = maps.map_summary(posterior, level)
@@ -148,9 +148,9 @@ def suggestion_map(posterior, records: list[dict], level: float) -> Figure | Non
     fig = Figure(figsize=(6.5, max(3.0, 5.0 * rows / cols + 0.8)))
     ax = fig.add_subplot(1, 1, 1)
     top = float(np.max(np.abs(mean))) or 1.0
-    im = ax.imshow(mean, cmap="RdBu", vmin=-top, vmax=top, origin="upper",
+    im = ax.imshow(mean, cmap=palette.REWARD_MAP, vmin=-top, vmax=top, origin="upper",
                    interpolation="nearest")
-    fig.colorbar(im, ax=ax, shrink=0.85, label="posterior-mean reward")
+    fig.colorbar(im, ax=ax, shrink=0.85, label="posterior-mean reward (reward units)")
     # A state suggested twice (a second walk from there) gets one marker with both ranks.
     marks: dict = {}
     for rank, rec in enumerate(records[:MAP_TOP], start=1):
@@ -160,9 +160,11 @@ def suggestion_map(posterior, records: list[dict], level: float) -> Figure | Non
     for ((r, c), kind), ranks in marks.items():
         # Squares ask for one action, circles for a whole demonstration.
         ax.scatter(c, r, s=260 * len(ranks), marker="s" if kind == "query" else "o",
-                   facecolor="white", edgecolor="#111111", lw=1.5, zorder=3)
+                   facecolor="white", edgecolor=palette.MARKER_EDGE, lw=1.5, zorder=3)
         ax.text(c, r, ",".join(ranks), ha="center", va="center", fontsize=8, zorder=4)
-    ax.set_title("top suggestions (1 = first)", fontsize=10)
+    ax.set_title("where to demonstrate next: top suggestions (1 = first)", fontsize=10)
+    ax.set_xlabel("column", fontsize=8)
+    ax.set_ylabel("row", fontsize=8)
     ax.set_xlim(-0.5, cols - 0.5)
     ax.set_ylim(rows - 0.5, -0.5)
     style_axes(ax)

@@ -21,10 +21,11 @@ from types import SimpleNamespace
 import matplotlib.image as mpimg
 import numpy as np
 import pytest
+from matplotlib.colors import to_rgb
 from PIL import Image
 
 import bayesirl as bi
-from bayesirl.report import CAUTION
+from bayesirl.report import CAUTION, palette
 from bayesirl.report import html as report_html
 from bayesirl.report.maps import cell_rewards, map_summary
 from bayesirl.report.plots import prior_pdf, top_pairs
@@ -307,9 +308,10 @@ def test_browser_renders_page_without_console_errors(chromium, pages, tmp_path):
     assert near(fail[:600], (0xFB, 0xE3, 0xDC)) > 20_000
     passing = screenshot(chromium, tmp_path, pages["pass"][1], "pass")
     assert near(passing[:600], (0xFB, 0xE3, 0xDC)) < 100
-    # The marginal histograms (#3d6b8c at alpha 0.8 over white: 0.8 c + 0.2 * 255) were
-    # decoded and painted by the browser, not just present as markup.
-    assert near(passing, (0.8 * 0x3D + 51, 0.8 * 0x6B + 51, 0.8 * 0x8C + 51)) > 5_000
+    # The marginal histograms (the posterior colour at alpha 0.8 over white: 0.8 c + 0.2 *
+    # 255) were decoded and painted by the browser, not just present as markup.
+    bars = 0.8 * 255 * np.asarray(to_rgb(palette.POSTERIOR)) + 51
+    assert near(passing, bars) > 5_000
 
 
 def test_browser_dom_has_every_section(chromium, pages, tmp_path):
