@@ -40,11 +40,12 @@ class Suggestion(NamedTuple):
     cumulative_stderr: float = float("nan")
     p_best: float = float("nan")  # greedy picks: P(this pick is the best at its step)
     rank_interval: tuple = ()  # greedy picks: 90% interval of its rank at its step
-    settled: bool = False  # greedy picks: p_best >= ranking.SETTLED
+    settled: bool = False  # greedy picks: p_same >= ranking.SETTLED
     # The Monte-Carlo estimate before ``gain`` is clipped to the bound (an information gain is
     # never negative; clipping can only bring an estimate closer to the true value).
     gain_estimate: float = float("nan")
     measurable: bool = False  # gain_estimate - MEASURABLE_Z * stderr > 0
+    p_same: float = float("nan")  # greedy picks: P(a run with another seed picks it again)
 
 
 def _parse_candidates(candidates, n_states: int) -> tuple[list[str], np.ndarray, bool]:
@@ -250,7 +251,8 @@ def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,
         total_var += float(sc.stderr[best]) ** 2
         row = _record(sc, best, kinds, states, explicit, sd_now, step)._replace(
             cumulative_gain=total, cumulative_stderr=float(np.sqrt(total_var)),
-            p_best=conf.p_best, rank_interval=conf.rank_interval, settled=conf.settled)
+            p_best=conf.p_best, rank_interval=conf.rank_interval, settled=conf.settled,
+            p_same=conf.p_same)
         picks.append(row)
         if step == budget:
             rest = [_record(sc, int(i), kinds, states, explicit, sd_now, 0) for i in order[1:]]

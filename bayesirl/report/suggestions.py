@@ -25,9 +25,9 @@ NO_GAIN = "no measurable gain"
 TABLE_TOP = 15
 FIELDS = ("candidate", "gain", "stderr", "target_sd", "target_reduction", "kind", "state",
           "step", "current_sd", "cumulative_gain", "cumulative_stderr", "p_best",
-          "rank_interval", "settled", "gain_estimate", "measurable")
+          "rank_interval", "settled", "gain_estimate", "measurable", "p_same")
 FLOATS = ("gain", "stderr", "target_sd", "target_reduction", "current_sd", "cumulative_gain",
-          "cumulative_stderr", "p_best", "gain_estimate")
+          "cumulative_stderr", "p_best", "gain_estimate", "p_same")
 
 
 def _finite(x) -> float | None:
@@ -112,7 +112,10 @@ def ranking_sentence(records: list[dict]) -> str:
             continue
         lo, hi = r.get("rank_interval") or (1, 1)
         ranks = f"rank {lo}" if lo == hi else f"ranks {lo}\u2013{hi}"
-        item = f"pick {r['step']} is the best with probability {r['p_best']:.2f} ({ranks})"
+        again = ("" if r.get("p_same") is None else
+                 f", another seed picks it again with probability {r['p_same']:.2f}")
+        item = (f"pick {r['step']} is the best with probability {r['p_best']:.2f}{again} "
+                f"({ranks})")
         (settled if r.get("settled") else unsettled).append(item)
     if not settled and not unsettled:
         return ""
