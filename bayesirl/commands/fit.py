@@ -80,7 +80,7 @@ def fit_command(args) -> int:
 def _sample(args, problem, lik, settings, run: RunFolder, resume: bool):
     kwargs = _sample_kwargs(problem, settings, args.quiet)
     if getattr(args, "scheduler", None) is not None:
-        kwargs["cluster"] = args.scheduler  # chains as Dask tasks; no checkpoint there
+        kwargs["backend"] = bayesirl.Cluster(args.scheduler)  # Dask tasks; no checkpoint
     else:
         kwargs["checkpoint"] = run.checkpoint
         kwargs["resume"] = resume

@@ -23,9 +23,10 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP, simulate
-from bayesirl.posterior import sample
 from bayesirl.priors import LogNormal, Normal
 
 SIDE = 4
@@ -171,7 +172,7 @@ class GridSBC:
                 lik, self.prior if self.sampler_prior is None else self.sampler_prior,
                 chains=self.chains, draws=int(draws), warmup=self.warmup, seed=int(seed),
                 progress=False, rationality=None if fixed else self.rationality, pin=self.pin,
-                target_accept=self.target_accept, processes=1,
+                target_accept=self.target_accept, backend=Processes(1),
             )
         out = post.weights[:, :, self.free]
         if not fixed:

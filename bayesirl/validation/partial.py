@@ -15,9 +15,10 @@ from functools import cached_property
 
 import numpy as np
 
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP, simulate
-from bayesirl.posterior import sample
 from bayesirl.posterior.groups import Pooling
 from bayesirl.priors import HalfNormal, Normal
 from bayesirl.validation.grid import PosteriorDraws
@@ -72,7 +73,7 @@ class PartialSBC:
         """``bayesirl.sample`` with partial pooling, in this process."""
         post = sample(BoltzmannLikelihood(self.mdp, data), Normal(0.0, self.mu_scale),
                       chains=self.chains, draws=draws, warmup=self.warmup, seed=seed,
-                      progress=False, processes=1,
+                      progress=False, backend=Processes(1),
                       pooling=self.sampler_pooling or Pooling("partial",
                                                               HalfNormal(self.spread_scale)))
         g = post.groups

@@ -276,8 +276,8 @@ def test_machine_example_in_process(tmp_path, capsys):
 def test_resume_prefers_a_newer_checkpoint_left_by_a_killed_resume(tiny, monkeypatch, capsys):
     import os
 
-    from bayesirl.posterior import chains
-    from bayesirl.posterior.interrupt import StopHook
+    from bayesirl.execution import chains
+    from bayesirl.execution.interrupt import StopHook
 
     folder = tiny[0].parent
     monkeypatch.setattr(chains, "TEST_STOP", StopHook(chain=0, iteration=70))

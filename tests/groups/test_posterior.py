@@ -14,7 +14,9 @@ import pytest
 from posterior.problems import PRIOR
 
 import bayesirl as bi
-from bayesirl.posterior import checkpoint, storage
+from bayesirl.execution import checkpoint
+from bayesirl.execution.backend import Processes
+from bayesirl.posterior import storage
 from bayesirl.posterior.group_summary import (
     demonstrator_summary,
     heterogeneity,
@@ -26,7 +28,7 @@ from bayesirl.posterior.groups import GroupModel
 
 from .problems import fresh, three_demonstrators
 
-RUN = dict(chains=2, draws=60, warmup=60, seed=3, progress=False, processes=1)
+RUN = dict(chains=2, draws=60, warmup=60, seed=3, progress=False, backend=Processes(1))
 
 
 @cache

@@ -23,13 +23,14 @@ from posterior.problems import PRIOR, two_feature_likelihood
 from scipy import integrate, stats
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import PosteriorModel
 from bayesirl.posterior.groups import Pooling, make_model
 
 from .problems import fresh, three_demonstrators
 
 SPREAD = 1.0
-RUN = dict(chains=4, draws=500, warmup=300, progress=False, processes=1)
+RUN = dict(chains=4, draws=500, warmup=300, progress=False, backend=Processes(1))
 
 
 def _pooled_and_zero_spread(spread):

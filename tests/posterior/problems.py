@@ -12,6 +12,7 @@ from functools import cache
 import numpy as np
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import LikelihoodValue
 from bayesirl.posterior import PosteriorModel
 
@@ -74,14 +75,15 @@ def _copy(lik: bi.BoltzmannLikelihood) -> bi.BoltzmannLikelihood:
 def nuts_two_feature(seed: int = 10, draws: int = 1000, warmup: int = 500) -> bi.Posterior:
     """bayesirl.sample (NUTS) on the two-feature problem, 4 chains, in this process."""
     return bi.sample(two_feature_likelihood(), PRIOR, chains=4, draws=draws, warmup=warmup,
-                     seed=seed, progress=False, processes=1)
+                     seed=seed, progress=False, backend=Processes(1))
 
 
 @cache
 def nuts_pinned(seed: int = 20, draws: int = 1000, warmup: int = 500) -> bi.Posterior:
     """bayesirl.sample (NUTS) on the sampled-rationality problem, 4 chains."""
     return bi.sample(three_feature_likelihood(), PRIOR, chains=4, draws=draws, warmup=warmup,
-                     seed=seed, progress=False, processes=1, rationality=RATIONALITY, pin=PIN)
+                     seed=seed, progress=False, backend=Processes(1), rationality=RATIONALITY,
+                     pin=PIN)
 
 
 class WalledLikelihood:

@@ -18,6 +18,7 @@ import pytest
 
 import bayesirl as bi
 from bayesirl import arviz_compat
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import Posterior, PosteriorModel
 
 from .problems import small_mdp
@@ -71,7 +72,8 @@ CASES = {"sampled-beta": _case_sampled_beta, "finite-horizon": _case_finite_hori
 @cache
 def _posterior(case: str) -> bi.Posterior:
     lik, kwargs = CASES[case]()
-    return bi.sample(lik, chains=2, draws=40, warmup=40, seed=3, progress=False, processes=1,
+    return bi.sample(lik, chains=2, draws=40, warmup=40, seed=3, progress=False,
+                     backend=Processes(1),
                      **kwargs)
 
 
