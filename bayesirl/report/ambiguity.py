@@ -10,15 +10,9 @@ import numpy as np
 from bayesirl.files import write_json, write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
 from bayesirl.report import derived, structural, verdicts
+from bayesirl.report.verdicts import CAUTION
 from bayesirl.report.suggestions import as_records
 from bayesirl.report.weights import directions, groups, mark_groups, weights_table
-
-CAUTION = (
-    "These intervals are conditional on the features, the dynamics and the Boltzmann-rational "
-    "demonstrator model given to the tool. Where they inform a behaviour that can hurt someone "
-    "(a robot, a vehicle), they are not a safety certification: defer to the applicable "
-    "standards and to qualified review."
-)
 
 
 @dataclass

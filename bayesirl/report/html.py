@@ -13,7 +13,6 @@ from html import escape
 import numpy as np
 
 from bayesirl.report import maps, plots, suggestions, verdicts
-from bayesirl.report.ambiguity import CAUTION
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
 # Stable anchors: other documents and the tests link to these, so renaming one is a break.
@@ -61,7 +60,7 @@ def render_html(report) -> str:
              _structural(report), _derived(report), _policy_risk(report),
              _maps(report), suggestions.render(report),
              _diagnostics(report), _assumptions(report),
-             section("caution", f'<p class="caution">{escape(CAUTION)}</p>')]
+             section("caution", f'<p class="caution">{escape(verdicts.CAUTION)}</p>')]
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f'<meta http-equiv="Content-Security-Policy" content="{CSP}">'
             '<meta name="viewport" content="width=device-width, initial-scale=1">'
