@@ -27,7 +27,7 @@ def _load(problem_path, demos_path):
     problem = read_problem(problem_path)
     demos = read_demonstrations(demos_path, problem)
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
-    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator,
+    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q_function=problem.q_function,
                               **problem.solver)
     # Before sampling starts (and before its status line), so a stop saves the draws at once.
     arviz_compat.preload()

@@ -183,7 +183,7 @@ def suggest(posterior, candidates="start-states", *, budget: int = 1, target=Non
         raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
     weights, betas = posterior_draws(posterior, max_draws)
     g = target_values(posterior, weights, target)
-    policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    policies = DrawPolicies(mdp, weights, betas, lik.q_function, chunk_bytes, cache_bytes)
     outer = outer_samples(policies.n, int(n_outer), seed)
     gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)

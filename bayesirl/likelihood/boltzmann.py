@@ -1,6 +1,7 @@
 """Log-likelihood of demonstrations under a Boltzmann-rational demonstrator, with gradients.
 
-``q="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model. ``q="optimal"``:
+``q_function="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model.
+``q_function="optimal"``:
 actions ~ exp(beta Q*) with Q* of the hard-optimal policy (the classic Bayesian-IRL model).
 The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likelihood").
 """
@@ -56,20 +57,21 @@ class BoltzmannLikelihood:
     """
 
     def __init__(
-        self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10,
+        self, mdp, demos, *, rationality: float = 1.0, q_function: str = "soft",
+        tol: float = 1e-10,
         gradient_rtol: float = soft.ADJOINT_RTOL,
         max_newton_steps: int = soft.MAX_NEWTON_STEPS,
         max_linear_iterations: int = soft.MAX_LINEAR_ITERATIONS,
     ) -> None:
-        if q not in ("soft", "optimal"):
-            raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
+        if q_function not in ("soft", "optimal"):
+            raise InputError(f"q_function: expected 'soft' or 'optimal'; got {q_function!r}")
         if not hasattr(demos, "check") or not hasattr(demos, "episodes"):
             raise InputError(f"demos: expected Demonstrations; got {type(demos).__name__}")
         demos.check(mdp)
-        self.mdp, self.demos, self.q = mdp, demos, q
+        self.mdp, self.demos, self.q_function = mdp, demos, q_function
         self.rationality = _positive(rationality)
         self.counts = demo_counts(mdp, demos)
-        self._model = soft if q == "soft" else optimal
+        self._model = soft if q_function == "soft" else optimal
         self.tol = float(tol)
         self.gradient_rtol = float(gradient_rtol)
         if not 0.0 < self.gradient_rtol < 1.0:
@@ -89,12 +91,12 @@ class BoltzmannLikelihood:
         # sent to another process starts cold and builds its own.
         state = self.__dict__.copy()
         state["_cache"] = None
-        state["_model"] = None  # a module; restored from ``q``
+        state["_model"] = None  # a module; restored from ``q_function``
         return state
 
     def __setstate__(self, state: dict) -> None:
         self.__dict__.update(state)
-        self._model = soft if self.q == "soft" else optimal
+        self._model = soft if self.q_function == "soft" else optimal
         self._cache = self._new_cache()
 
     def _new_cache(self) -> dict:

@@ -45,6 +45,7 @@ class TabularMDP:
         self,
         transitions,
         features,
+        *,
         discount: float = 0.95,
         horizon: int | None = None,
         start=None,

@@ -13,6 +13,7 @@ from bayesirl.model.validate import distribution
 def simulate(
     mdp,
     weights,
+    *,
     episodes: int,
     length: int,
     rationality: float = 1.0,

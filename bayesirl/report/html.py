@@ -313,13 +313,13 @@ def _assumptions(report) -> str:
     pinned = ", ".join(f"{k} = {v:g}" for k, v in (a.get("pinned") or {}).items()) or "none"
     horizon = "none (infinite horizon, discounted)" if a.get("horizon") is None \
         else str(a["horizon"])
-    rows = [["demonstrator", a.get("demonstrator")], ["rationality", a.get("rationality")],
+    rows = [["q_function", a.get("q_function")], ["rationality", a.get("rationality")],
             ["pinned weights", pinned], ["prior on the weights", a.get("prior")],
             ["discount", a.get("discount")], ["horizon", horizon],
             ["states \u00d7 actions", f"{a.get('states')} \u00d7 {a.get('actions')}"],
             ["features", ", ".join(a.get("features", []))],
             ["demonstrations", f"{a.get('episodes')} episodes, {a.get('steps')} steps"]]
-    known = {"demonstrator", "rationality", "pinned", "prior", "discount", "horizon", "states",
+    known = {"q_function", "rationality", "pinned", "prior", "discount", "horizon", "states",
              "actions", "features", "episodes", "steps"}
     rows += [[k, v] for k, v in a.items() if k not in known]
     return section("assumptions", '<p class="note">Every number above holds only under '

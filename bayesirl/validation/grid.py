@@ -155,7 +155,8 @@ class GridSBC:
             rng, self.free.size)
         beta = float(self.rationality.draw(rng, 1)[0]) if self.sampled_rationality else float(
             self.rationality)
-        demos = simulate(self.mdp, weights, self.episodes, self.length, rationality=beta,
+        demos = simulate(self.mdp, weights, episodes=self.episodes, length=self.length,
+                         rationality=beta,
                          seed=rng)
         truth = weights[self.free]
         return (np.append(truth, beta) if self.sampled_rationality else truth), demos

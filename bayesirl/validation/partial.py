@@ -67,7 +67,7 @@ class PartialSBC:
                              seed=int(rng.integers(2**31)))
             episodes += list(demos.episodes)
             names += [f"d{d}"] * demos.n_episodes
-        return np.array([mu[0], tau[0], w[0, 0]]), Demonstrations(episodes, names)
+        return np.array([mu[0], tau[0], w[0, 0]]), Demonstrations(episodes, demonstrators=names)
 
     def posterior(self, data, draws: int, seed: int) -> PosteriorDraws:
         """``bayesirl.sample`` with partial pooling, in this process."""

@@ -226,7 +226,7 @@ def test_problem_settings_reach_the_sampler(tiny, monkeypatch, capsys):
     seen = {}
 
     def stand_in(lik, **kwargs):
-        seen.update(kwargs, q=lik.q, steps=lik.demos.n_steps)
+        seen.update(kwargs, q=lik.q_function, steps=lik.demos.n_steps)
         raise InputError("stop here")
 
     monkeypatch.setattr(bayesirl, "sample", stand_in)

@@ -68,7 +68,8 @@ def test_same_draws_as_the_local_run(client):
 
 def test_the_problem_is_pickled_once_in_this_process(client):
     lik = problem()
-    counting = CountingLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    counting = CountingLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
     CountingLikelihood.pickled = 0
     post = bi.sample(counting, PRIOR, **{**RUN, "chains": 4}, backend=Cluster(client))
     assert CountingLikelihood.pickled == 1  # once for four chains, not once per task
@@ -180,7 +181,8 @@ def test_an_error_in_a_chain_reaches_the_caller(client):
     from .slowlik import NowhereLikelihood
 
     lik = problem()
-    nowhere = NowhereLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    nowhere = NowhereLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
     with pytest.raises(bi.InputError, match="no finite log-posterior"):
         bi.sample(nowhere, PRIOR, **RUN, backend=Cluster(client))
     # Nothing of the failed run stays on the cluster (its futures were cancelled).

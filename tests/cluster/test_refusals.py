@@ -20,7 +20,8 @@ def _lik() -> bi.BoltzmannLikelihood:
     rng = np.random.default_rng(0)
     mdp = bi.TabularMDP(rng.dirichlet(np.ones(4), size=(4, 2)), rng.normal(size=(4, 2, 2)),
                         discount=0.8)
-    return bi.BoltzmannLikelihood(mdp, bi.simulate(mdp, np.array([1.0, 0.0]), 2, 4, seed=0))
+    return bi.BoltzmannLikelihood(mdp, bi.simulate(mdp, np.array([1.0, 0.0]), episodes=2,
+                                                   length=4, seed=0))
 
 
 def _sample(cluster=None, **kwargs):

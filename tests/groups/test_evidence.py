@@ -99,14 +99,14 @@ def test_demonstrator_names_are_validated(labels):
     episodes = [(np.array([0, 1]), np.array([0]))] * len(labels)
     ok = all(isinstance(x, str) and x.strip() for x in labels)
     if ok:
-        demos = bi.Demonstrations(episodes, labels)
+        demos = bi.Demonstrations(episodes, demonstrators=labels)
         assert demos.demonstrators == tuple(x.strip() for x in labels)
         assert sum(len(v) for v in demos.groups().values()) == len(labels)
     else:
         with pytest.raises(bi.InputError, match="episode"):
-            bi.Demonstrations(episodes, labels)
+            bi.Demonstrations(episodes, demonstrators=labels)
     with pytest.raises(bi.InputError, match="names for"):
-        bi.Demonstrations(episodes, ["a"] * (len(labels) + 1))
+        bi.Demonstrations(episodes, demonstrators=["a"] * (len(labels) + 1))
 
 
 def test_per_demonstrator_likelihoods_keep_every_setting():

@@ -47,7 +47,7 @@ def test_draws_are_the_models_transform_of_theta(pooling):
     else:  # no population: the headline is the plain mean of the three
         assert "spread" not in g
         assert np.allclose(p.weights, g["demonstrator_weights"].mean(axis=2))
-    names = p.param_names()
+    names = p.param_names
     post = p.to_arviz().posterior
     sizes = sum(post[v].size for v in post.data_vars) // (2 * 60)
     assert len(names) == len(p.diagnostics.rhat) == sizes

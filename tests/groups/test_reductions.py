@@ -101,7 +101,7 @@ def _reweighted(draws: np.ndarray, s0: float) -> list[tuple[float, float]]:
 @pytest.fixture(scope="module")
 def one_demonstrator():
     lik = two_feature_likelihood()
-    solo = bi.Demonstrations(lik.demos.episodes, ["solo"] * lik.demos.n_episodes)
+    solo = bi.Demonstrations(lik.demos.episodes, demonstrators=["solo"] * lik.demos.n_episodes)
     pooled = bi.sample(fresh(lik), PRIOR, seed=21, **RUN)
     partial = bi.sample(fresh(lik, solo), PRIOR, seed=22,
                         pooling=Pooling("partial", bi.HalfNormal(SPREAD)), **RUN)

@@ -68,7 +68,8 @@ def two_feature_model() -> PosteriorModel:
 
 
 def _copy(lik: bi.BoltzmannLikelihood) -> bi.BoltzmannLikelihood:
-    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                                  q_function=lik.q_function, tol=lik.tol)
 
 
 @cache
@@ -97,7 +98,7 @@ class WalledLikelihood:
     def __init__(self, inner: bi.BoltzmannLikelihood, cut: float) -> None:
         self.inner, self.cut = inner, float(cut)
         self.mdp, self.demos = inner.mdp, inner.demos
-        self.rationality, self.q, self.tol = inner.rationality, inner.q, inner.tol
+        self.rationality, self.q_function, self.tol = inner.rationality, inner.q_function, inner.tol
 
     def evaluate(self, weights, rationality=None) -> LikelihoodValue:
         value = self.inner.evaluate(weights, rationality)

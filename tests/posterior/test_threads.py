@@ -34,7 +34,8 @@ class BlasCheckingLikelihood(bi.BoltzmannLikelihood):
 
 def _checking_copy() -> BlasCheckingLikelihood:
     lik = two_feature_likelihood()
-    return BlasCheckingLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    return BlasCheckingLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
 
 
 @pytest.fixture
