@@ -93,10 +93,11 @@ def sample(
         gives the same draws whether chains run in parallel or one after another.
     method : {"nuts", "random-walk"}
     progress : bool
-        One line per chain on a terminal (never when output is not a terminal); with
-        ``cluster``, a line as each chain finishes.
+        One line per chain on a terminal (never when output is not a terminal); on a
+        ``Cluster``, a line as each chain finishes.
     rationality : None, float or LogNormal
-        Fixed (None: the likelihood's) or sampled with this prior; then ``pin`` one weight.
+        Fixed, or sampled with this prior (then ``pin`` one weight); None: the likelihood's
+        own (a number, or a prior given to ``BoltzmannLikelihood(rationality=)``).
     pin : dict, optional
         ``{feature name: value}`` weights held fixed (sets the scale when beta is sampled;
         its sign is an assumption you make).

@@ -8,7 +8,7 @@ The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likeli
 
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import NamedTuple, Protocol
 
 import numpy as np
 
@@ -33,9 +33,14 @@ class BoltzmannLikelihood:
     mdp : TabularMDP
     demos : Demonstrations
         Checked against ``mdp`` (ranges, horizon, every recorded transition).
-    rationality : float
-        Default inverse temperature ``beta`` (a sampler may pass another per call).
-    q : {"soft", "optimal"}
+    rationality : float or LogNormal
+        The inverse temperature ``beta``, in the same forms as :func:`bayesirl.sample`'s
+        ``rationality``: a positive number (fixed), or a prior such as
+        ``bayesirl.LogNormal(0, 1)``, which ``sample`` then samples (pin one weight). With a
+        prior, ``evaluate``/``value`` without an explicit rationality use its median
+        ``exp(mu)``.
+    q_function : {"soft", "optimal"}
+        The Q-function of the Boltzmann policy: soft (maximum causal entropy) or optimal.
     tol : float
         Span tolerance of the soft Bellman solve (discounted model): the log-likelihood is
         then accurate to about ``2 * n_steps * tol``.
@@ -57,7 +62,8 @@ class BoltzmannLikelihood:
     """
 
     def __init__(
-        self, mdp, demos, *, rationality: float = 1.0, q_function: str = "soft",
+        self, mdp, demos, *, rationality: float | RationalityPrior = 1.0,
+        q_function: str = "soft",
         tol: float = 1e-10,
         gradient_rtol: float = soft.ADJOINT_RTOL,
         max_newton_steps: int = soft.MAX_NEWTON_STEPS,
@@ -69,7 +75,7 @@ class BoltzmannLikelihood:
             raise InputError(f"demos: expected Demonstrations; got {type(demos).__name__}")
         demos.check(mdp)
         self.mdp, self.demos, self.q_function = mdp, demos, q_function
-        self.rationality = _positive(rationality)
+        self.rationality_prior, self.rationality = _rationality(rationality)
         self.counts = demo_counts(mdp, demos)
         self._model = soft if q_function == "soft" else optimal
         self.tol = float(tol)
@@ -167,6 +173,28 @@ def _count(value, name: str) -> int:
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
         raise InputError(f"{name}: expected a whole number >= 1; got {value!r}")
     return int(value)
+
+
+class RationalityPrior(Protocol):
+    """A prior on the rationality (``bayesirl.LogNormal``): sampled on ``log(beta)``."""
+
+    mu: float
+    sigma: float
+
+    def log_density(self, z: np.ndarray) -> tuple[float, np.ndarray]: ...
+
+
+def _rationality(value) -> tuple[RationalityPrior | None, float]:
+    """``(prior or None, default beta)``: a prior's default is its median ``exp(mu)``."""
+    if hasattr(value, "log_density"):
+        mu = getattr(value, "mu", None)
+        if np.ndim(mu) != 0 or not np.isfinite(float(mu)):
+            raise InputError(f"rationality: a prior needs one finite log_mean (mu); got {value!r}")
+        return value, _positive(float(np.exp(float(mu))))
+    if isinstance(value, str | bytes | bool | np.bool_):  # float("1.0") would pass
+        raise InputError(f"rationality: expected a positive number or a LogNormal prior; got "
+                         f"{value!r}")
+    return None, _positive(value)
 
 
 def _positive(beta) -> float:

@@ -66,7 +66,7 @@ class Demonstrations:
                     f"{s_arr.shape[0]} states; expected {a_arr.shape[0]} or {a_arr.shape[0] + 1}"
                 )
             episodes.append((s_arr, a_arr))
-        return cls(episodes, demonstrators)
+        return cls(episodes, demonstrators=demonstrators)
 
     @property
     def n_episodes(self) -> int:

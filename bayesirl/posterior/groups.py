@@ -313,6 +313,8 @@ def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None)
     start) per demonstrator.
     """
     pooling = as_pooling(pooling)
+    if rationality is None:  # the likelihood's own: a number, or a prior to sample
+        rationality = getattr(likelihood, "rationality_prior", None)
     if pooling.kind == "pooled":
         return PosteriorModel(likelihood, prior, rationality, pin)
     if likelihood.demos.demonstrators is None:

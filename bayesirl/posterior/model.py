@@ -42,6 +42,8 @@ class PosteriorModel:
         self.feature_names = names
         self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior
         self.pin = _check_pin(pin, names)
+        if rationality is None:  # the likelihood's own: a number, or a prior to sample
+            rationality = getattr(likelihood, "rationality_prior", None)
         self.rationality_prior = rationality if hasattr(rationality, "log_density") else None
         if self.rationality_prior is None:
             beta = likelihood.rationality if rationality is None else rationality

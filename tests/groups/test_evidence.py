@@ -113,8 +113,9 @@ def test_per_demonstrator_likelihoods_keep_every_setting():
     from bayesirl.evidence.groups import likelihood_settings, split_likelihood
 
     lik = bi.BoltzmannLikelihood(three_demonstrators().mdp, three_demonstrators().demos,
-                                 rationality=1.7, q="optimal", tol=1e-9, gradient_rtol=1e-7)
+                                 rationality=1.7, q_function="optimal", tol=1e-9,
+                                 gradient_rtol=1e-7)
     want = likelihood_settings(lik)
-    assert {"rationality", "q", "tol", "gradient_rtol"} <= set(want)
+    assert {"rationality", "q_function", "tol", "gradient_rtol"} <= set(want)
     for part in split_likelihood(lik):
         assert likelihood_settings(part) == want
