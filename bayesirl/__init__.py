@@ -38,6 +38,7 @@ _EXPORTS = {
     "Laplace": "bayesirl.priors",
     "LogNormal": "bayesirl.priors",
     "Normal": "bayesirl.priors",
+    "Prior": "bayesirl.priors",
     "Uniform": "bayesirl.priors",
 }
 
@@ -69,6 +70,7 @@ __all__ = [
     "Normal",
     "Pooling",
     "Posterior",
+    "Prior",
     "Processes",
     "Serial",
     "SolverError",
@@ -90,5 +92,5 @@ if TYPE_CHECKING:  # the same names, eagerly, for type checkers and IDEs
     from bayesirl.model import Demonstrations, TabularMDP, simulate
     from bayesirl.posterior import Posterior
     from bayesirl.posterior.groups import Pooling
-    from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Uniform
+    from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Prior, Uniform
     from bayesirl.report import AmbiguityReport, ambiguity

@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import os
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -19,6 +19,9 @@ from bayesirl.errors import InputError
 from bayesirl.execution.backend import Backend, Processes, Serial, backend_of
 from bayesirl.execution.progress import StatusLine
 from bayesirl.resources import MAX_BUDGET
+
+if TYPE_CHECKING:
+    from bayesirl.posterior import Posterior
 
 KINDS = ("start-states", "query-states")
 
@@ -114,7 +117,9 @@ def _step_scores(backend, batch, kinds, states, first: bool) -> est.Scores:
 N_OUTER = 512
 
 
-def suggest(posterior, candidates="start-states", *, budget: int = 1, target=None,
+def suggest(posterior: Posterior,
+            candidates: str | Sequence[int | str | tuple[str, int]] = "start-states", *,
+            budget: int = 1, target: str | None = None,
             seed: int = 0, length: int | None = None, n_outer: int = N_OUTER,
             max_draws: int | None = None, chunk_bytes: int = CHUNK_BYTES,
             cache_bytes: int = CACHE_BYTES, progress: bool = False,

@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import pickle
 import time
+from collections.abc import Mapping
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -19,6 +21,12 @@ from bayesirl.execution.partial import Book, finish
 from bayesirl.execution.progress import ChainProgress
 from bayesirl.posterior.groups import make_model
 from bayesirl.resources import check_sampling
+
+if TYPE_CHECKING:
+    from bayesirl.likelihood import BoltzmannLikelihood
+    from bayesirl.posterior import Posterior
+    from bayesirl.posterior.groups import Pooling
+    from bayesirl.priors import LogNormal, Prior
 
 # Seconds between checkpoint writes (and between state reports from workers).
 CHECKPOINT_EVERY = 2.0
@@ -60,8 +68,8 @@ def _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth,
 
 
 def sample(
-    likelihood,
-    prior=None,
+    likelihood: BoltzmannLikelihood,
+    prior: Prior | None = None,
     *,
     chains: int = 4,
     draws: int = 1000,
@@ -69,16 +77,16 @@ def sample(
     seed: int = 0,
     method: str = "nuts",
     progress: bool = True,
-    rationality=None,
-    pin: dict | None = None,
+    rationality: float | LogNormal | None = None,
+    pin: Mapping[str, float] | None = None,
     dense_mass: bool = False,
     target_accept: float | None = None,
     max_depth: int = 10,
     backend: Backend | None = None,
     checkpoint: str | Path | None = None,
     resume: bool = False,
-    pooling=None,
-):
+    pooling: str | Pooling | None = None,
+) -> Posterior:
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
     Parameters

@@ -8,13 +8,16 @@ The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likeli
 
 from __future__ import annotations
 
-from typing import NamedTuple, Protocol
+from typing import TYPE_CHECKING, NamedTuple, Protocol
 
 import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.likelihood import optimal, soft, warm
 from bayesirl.likelihood.counts import demo_counts
+
+if TYPE_CHECKING:
+    from bayesirl.model import Demonstrations, TabularMDP
 
 
 class LikelihoodValue(NamedTuple):
@@ -62,7 +65,8 @@ class BoltzmannLikelihood:
     """
 
     def __init__(
-        self, mdp, demos, *, rationality: float | RationalityPrior = 1.0,
+        self, mdp: TabularMDP, demos: Demonstrations, *,
+        rationality: float | RationalityPrior = 1.0,
         q_function: str = "soft",
         tol: float = 1e-10,
         gradient_rtol: float = soft.ADJOINT_RTOL,

@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import scipy.sparse as sp
+from numpy.typing import ArrayLike
 
 from bayesirl.errors import InputError
 from bayesirl.model import validate
@@ -43,14 +46,14 @@ class TabularMDP:
 
     def __init__(
         self,
-        transitions,
-        features,
+        transitions: ArrayLike | sp.spmatrix | sp.sparray,
+        features: ArrayLike,
         *,
         discount: float = 0.95,
         horizon: int | None = None,
-        start=None,
-        feature_names=None,
-        grid_shape=None,
+        start: ArrayLike | None = None,
+        feature_names: Sequence[str] | None = None,
+        grid_shape: tuple[int, int] | None = None,
     ) -> None:
         matrix, n_s, n_a = validate.transition_matrix(transitions)
         self.transitions: sp.csr_matrix = matrix

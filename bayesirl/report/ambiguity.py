@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -13,6 +15,10 @@ from bayesirl.report import derived, structural, verdicts
 from bayesirl.report.suggestions import as_records
 from bayesirl.report.verdicts import CAUTION
 from bayesirl.report.weights import directions, groups, mark_groups, weights_table
+
+if TYPE_CHECKING:
+    from bayesirl.posterior import Posterior
+    from bayesirl.priors import Prior
 
 
 @dataclass
@@ -87,9 +93,11 @@ def _assumptions(posterior) -> dict:
             "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior)}
 
 
-def ambiguity(posterior, *, level: float = 0.9, prior=None, truth=None, states=(),
-              risk_level: float | None = None, suggestions=None,
-              tolerance: float | None = None, action_names=None) -> AmbiguityReport:
+def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None = None,
+              truth: Sequence[float] | np.ndarray | None = None, states: Sequence[int] = (),
+              risk_level: float | None = None, suggestions: Sequence | None = None,
+              tolerance: float | None = None,
+              action_names: Sequence[str] | None = None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
