@@ -3,7 +3,7 @@
 Exactly one world table: ``[map]`` (a grid from a text map and a legend), ``[arrays]``
 (transitions and features from an ``.npz`` file, or features from a CSV) or ``[gym]`` (a
 gymnasium toy-text environment plus a feature specification). The format is described with
-complete examples in docs/cli-and-files.md.
+complete examples in README.md ("Problem files (TOML)").
 """
 
 from __future__ import annotations

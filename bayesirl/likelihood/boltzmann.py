@@ -3,7 +3,7 @@
 ``q_function="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model.
 ``q_function="optimal"``:
 actions ~ exp(beta Q*) with Q* of the hard-optimal policy (the classic Bayesian-IRL model).
-The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likelihood").
+The gradient comes from one adjoint solve; derivations in docs/likelihood.md.
 """
 
 from __future__ import annotations

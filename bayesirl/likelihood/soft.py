@@ -1,7 +1,7 @@
 """Soft-Q (maximum causal entropy) likelihood: discounted and finite-horizon.
 
 Internally the reward is ``beta * phi . w`` with unit temperature, since the policy depends on
-``beta * w`` only. Discounted gradient (DEVELOPERS.md, "Likelihood"):
+``beta * w`` only. Discounted gradient (docs/likelihood.md):
 
     rho = sum_t (g P(.|s_t,a_t) - e_{s_t}),   (I - g P_pi^T) m = rho,
     dL/dw = beta * (sum_t phi(s_t,a_t) + sum_s m(s) phi_pi(s)).

@@ -1,7 +1,7 @@
 """The evidence model: sums of terms, their warm starts, and its refusals.
 
 Outside reference: the log-likelihood of independent episodes is the sum of the episodes'
-log-likelihoods (the demonstrator model's product form, DEVELOPERS.md "Likelihood"), so the
+log-likelihoods (the demonstrator model's product form, docs/likelihood.md), so the
 demonstrators' terms at one shared weight vector must add up to the one-term likelihood of
 all episodes, to the solver's documented accuracy 2 * n_steps * tol per solve.
 """
