@@ -13,6 +13,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "bayesirl"
 LAYERS = {
     "errors": 0,
     "version": 0,
+    "lazy": 0,
     "files": 0,
     "threads": 0,
     "resources": 0,

@@ -9,7 +9,6 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from bayesirl.errors import InputError
-from bayesirl.kernels import sample_episodes
 from bayesirl.model.demos import Demonstrations
 from bayesirl.model.validate import distribution
 
@@ -58,6 +57,8 @@ def simulate(
     starts = _start_states(mdp, start, int(episodes), rng)
     uniforms = rng.random((int(episodes), int(length), 2))
     dyn = mdp.dynamics
+    from bayesirl.kernels import sample_episodes  # numba loads on first use
+
     states, actions = sample_episodes(
         dyn.indptr, dyn.indices, dyn.data, np.ascontiguousarray(policy), starts, int(length),
         uniforms,

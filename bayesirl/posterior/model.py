@@ -13,7 +13,6 @@ import math
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.evidence import pooled_evidence
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
 _LOG_MAX = math.log(np.finfo(float).max)
@@ -37,6 +36,8 @@ class PosteriorModel:
     def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
         self.likelihood = likelihood
         # prior + sum of evidence terms; here the one term of every episode together
+        from bayesirl.evidence import pooled_evidence  # the likelihood stack, on first use
+
         self.evidence = pooled_evidence(likelihood)
         names = likelihood.mdp.feature_names
         self.feature_names = names
