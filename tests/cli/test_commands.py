@@ -207,14 +207,15 @@ def test_suggest_scheduler_reaches_the_designer(tiny, monkeypatch, capsys):
     real = design.suggest
 
     def spy(posterior, **kwargs):
-        seen.append(kwargs.pop("cluster", None))
+        backend = kwargs.pop("backend", None)
+        seen.append(None if backend is None else backend.where)
         return real(posterior, **kwargs)
 
     monkeypatch.setattr(design, "suggest", spy)
     for extra in (["--scheduler", "local"], []):
         assert main(["--quiet", "suggest", str(run), "--budget", "1", *extra]) == 0
         settings = json.loads((run / "suggestions.json").read_text())["settings"]
-        assert "cluster" not in settings and settings["budget"] == 1
+        assert "backend" not in settings and settings["budget"] == 1
     assert seen == ["local", None]
 
 
