@@ -10,8 +10,7 @@ import importlib
 from typing import TYPE_CHECKING
 
 from bayesirl.errors import InputError, Interrupted, SolverError
-
-__version__ = "0.1.0"
+from bayesirl.version import __version__ as __version__  # re-exported
 
 # The public names and the modules they live in. They are imported on first use, so that the
 # command line starts (and handles Ctrl-C) before numpy, scipy and numba load.
@@ -29,12 +28,17 @@ _EXPORTS = {
     "TabularMDP": "bayesirl.model",
     "simulate": "bayesirl.model",
     "Posterior": "bayesirl.posterior",
-    "sample": "bayesirl.posterior",
+    "sample": "bayesirl.execution",
+    "Backend": "bayesirl.execution.backend",
+    "Cluster": "bayesirl.execution.backend",
+    "Processes": "bayesirl.execution.backend",
+    "Serial": "bayesirl.execution.backend",
     "Pooling": "bayesirl.posterior.groups",
     "HalfNormal": "bayesirl.priors",
     "Laplace": "bayesirl.priors",
     "LogNormal": "bayesirl.priors",
     "Normal": "bayesirl.priors",
+    "Prior": "bayesirl.priors",
     "Uniform": "bayesirl.priors",
 }
 
@@ -53,7 +57,9 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "AmbiguityReport",
+    "Backend",
     "BoltzmannLikelihood",
+    "Cluster",
     "Demonstrations",
     "HalfNormal",
     "InputError",
@@ -64,6 +70,9 @@ __all__ = [
     "Normal",
     "Pooling",
     "Posterior",
+    "Prior",
+    "Processes",
+    "Serial",
     "SolverError",
     "Suggestion",
     "TabularMDP",
@@ -77,9 +86,11 @@ __all__ = [
 
 if TYPE_CHECKING:  # the same names, eagerly, for type checkers and IDEs
     from bayesirl.design import Suggestion, suggest
+    from bayesirl.execution import sample
+    from bayesirl.execution.backend import Backend, Cluster, Processes, Serial
     from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
     from bayesirl.model import Demonstrations, TabularMDP, simulate
-    from bayesirl.posterior import Posterior, sample
+    from bayesirl.posterior import Posterior
     from bayesirl.posterior.groups import Pooling
-    from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Uniform
+    from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Prior, Uniform
     from bayesirl.report import AmbiguityReport, ambiguity

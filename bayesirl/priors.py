@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass
+from typing import Protocol, runtime_checkable
 
 import numpy as np
 from scipy.special import expit
@@ -18,6 +19,33 @@ from bayesirl.errors import InputError
 # The default prior on reward weights: weak (features of unit scale make weights of a few
 # units already near-deterministic behaviour) but proper, so the posterior always exists.
 DEFAULT_SCALE = 5.0
+
+
+@runtime_checkable
+class Prior(Protocol):
+    """The prior role (``Normal``, ``Laplace``, ``Uniform``, ``LogNormal``, ``HalfNormal``).
+
+    Coordinate-wise on ``n`` unconstrained values ``z``; a prior with a bounded support also
+    has ``transform(z)`` and ``dtransform(z)`` (the map to the parameter and its derivative).
+    """
+
+    kind: str  # the name in problem files and result files ("normal", ...)
+
+    def params(self, n: int) -> tuple[np.ndarray, ...]:
+        """The parameters broadcast to length ``n`` and checked (InputError)."""
+        ...
+
+    def log_density(self, z: np.ndarray) -> tuple[float, np.ndarray]:
+        """``log p(x) + log|dx/dz|`` at ``x = transform(z)`` and its gradient in ``z``."""
+        ...
+
+    def variance(self, n: int) -> np.ndarray:
+        """The prior variance of each of ``n`` parameters (for contraction)."""
+        ...
+
+    def draw(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """One draw of the parameter vector (length ``n``; not of ``z``)."""
+        ...
 
 
 def _vector(x, n: int, what: str) -> np.ndarray:
@@ -235,7 +263,6 @@ class HalfNormal:
 
 
 PRIORS = {cls.kind: cls for cls in (Normal, Laplace, Uniform, LogNormal, HalfNormal)}
-Prior = Normal | Laplace | Uniform | LogNormal | HalfNormal
 
 
 def to_json(prior) -> str:

@@ -50,7 +50,7 @@ def _cases(quick: bool):
 
 def _data(mdp, seed):
     if mdp.feature_names == ("theta1", "RC"):  # the bus engine: 100 buses x 100 months
-        return BUS_TRUTH, simulate(mdp, BUS_TRUTH, 100, 100, seed=seed, start=0)
+        return BUS_TRUTH, simulate(mdp, BUS_TRUTH, episodes=100, length=100, seed=seed, start=0)
     return demonstrations_for(mdp, episodes=50, length=50, seed=seed)
 
 

@@ -31,8 +31,9 @@ from bayesirl.bench.memory import PeakPss
 from bayesirl.bench.problems import demonstrations_for, random_mdp
 from bayesirl.bench.report import machine
 from bayesirl.bench.solverwork import profile
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.posterior import sample
 
 SIZES = (10**3, 10**4, 10**5)
 CHAINS = 4
@@ -112,7 +113,7 @@ def _fit(lik, draws, warmup, chains, processes, seed=0) -> tuple[dict, object]:
     t0 = time.perf_counter()
     with PeakPss(PSS_EVERY) as pss:
         post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed,
-                      progress=False, processes=processes)
+                      progress=False, backend=Processes(processes))
     wall = time.perf_counter() - t0
     main, child = _peak_bytes(resource.RUSAGE_SELF), _peak_bytes(resource.RUSAGE_CHILDREN)
     f = post.weights.shape[-1]
@@ -162,7 +163,7 @@ def measure_size(n_states: int, draws: int = DRAWS, warmup: int = WARMUP, chains
     ----------
     n_states : int
     draws, warmup, chains : int
-        Passed to :func:`bayesirl.posterior.sample` (seed 0, no progress bar).
+        Passed to :func:`bayesirl.sample` (seed 0, no progress bar).
     processes : int, optional
         Worker processes; default that of ``sample`` (``min(chains, cpu count)``).
     log : callable

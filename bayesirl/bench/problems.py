@@ -94,4 +94,4 @@ def bus_engine(discount: float = 0.9999) -> TabularMDP:
 def demonstrations_for(mdp: TabularMDP, episodes: int, length: int, seed: int = 0):
     """Weights ~ N(0, 1) and demonstrations simulated from them."""
     w = np.random.default_rng(seed + 1).normal(size=mdp.n_features)
-    return w, simulate(mdp, w, episodes, length, seed=seed)
+    return w, simulate(mdp, w, episodes=episodes, length=length, seed=seed)

@@ -21,8 +21,9 @@ import numpy as np
 from bayesirl import arviz_compat
 from bayesirl.bench.problems import demonstrations_for, random_mdp
 from bayesirl.bench.reference import reference_value_and_grad
+from bayesirl.execution import sample
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.posterior import PosteriorModel, sample
+from bayesirl.posterior import PosteriorModel
 
 
 def _min_bulk_ess(posterior) -> float:

@@ -34,7 +34,7 @@ def _load(problem_path, demos_path):
     problem = read_problem(problem_path)
     demos = read_demonstrations(demos_path, problem)
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
-    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q=problem.demonstrator,
+    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q_function=problem.q_function,
                               **problem.solver)
     # Before sampling starts (and before its status line), so a stop saves the draws at once.
     arviz_compat.preload()
@@ -87,7 +87,7 @@ def fit_command(args) -> int:
 def _sample(args, problem, lik, settings, run: RunFolder, resume: bool):
     kwargs = _sample_kwargs(problem, settings, args.quiet)
     if getattr(args, "scheduler", None) is not None:
-        kwargs["cluster"] = args.scheduler  # chains as Dask tasks; no checkpoint there
+        kwargs["backend"] = bayesirl.Cluster(args.scheduler)  # Dask tasks; no checkpoint
     else:
         kwargs["checkpoint"] = run.checkpoint
         kwargs["resume"] = resume

@@ -136,9 +136,11 @@ def suggest_command(args) -> int:
 
     scheduler = getattr(args, "scheduler", None)
     if scheduler is not None:  # a malformed address is refused before the run is read
-        from bayesirl.posterior.cluster import check_arguments
+        from bayesirl.execution.backend import Cluster
 
-        check_arguments(scheduler, None, False, None)
+        where = {"backend": Cluster(scheduler)}  # not a setting of the result
+    else:
+        where = {}
     if args.budget > MAX_BUDGET:  # each pick re-scores every candidate
         raise InputError(f"--budget: {args.budget} is more than the limit of {MAX_BUDGET} "
                          "demonstrations chosen together")
@@ -159,7 +161,6 @@ def suggest_command(args) -> int:
               "n_outer": args.outer}
     if "progress" in inspect.signature(design.suggest).parameters:
         kwargs["progress"] = not args.quiet
-    where = {} if scheduler is None else {"cluster": scheduler}  # not a setting of the result
     records = as_records(design.suggest(posterior, **kwargs, **where))
     write_json(run.suggestions, {"settings": {k: v for k, v in kwargs.items()
                                               if k != "progress"},

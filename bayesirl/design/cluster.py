@@ -1,4 +1,4 @@
-"""``suggest(..., cluster=...)``: the designer's work as Dask tasks on a ``distributed`` cluster.
+"""``suggest(..., backend=Cluster(...))``: the designer's work as Dask tasks on a cluster.
 
 The problem (the MDP, the draws, the target values and the outer samples, pickled once) is
 scattered to every worker once. Then one task per block of draws solves that block's

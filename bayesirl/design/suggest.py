@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import os
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -17,9 +17,12 @@ from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, pos
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
 from bayesirl.errors import InputError
-from bayesirl.posterior import cluster as dask_cluster
-from bayesirl.posterior.progress import StatusLine
+from bayesirl.execution.backend import Backend, Processes, Serial, backend_of
+from bayesirl.execution.progress import StatusLine
 from bayesirl.resources import MAX_BUDGET, MEASURABLE_Z
+
+if TYPE_CHECKING:
+    from bayesirl.posterior import Posterior
 
 KINDS = ("start-states", "query-states")
 
@@ -120,10 +123,13 @@ def _step_scores(backend, batch, kinds, states, first: bool) -> est.Scores:
 N_OUTER = 512
 
 
-def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
-            length: int | None = None, n_outer: int = N_OUTER, max_draws: int | None = None,
-            chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES,
-            progress: bool = False, cluster=None) -> list[Suggestion]:
+def suggest(posterior: Posterior,
+            candidates: str | Sequence[int | str | tuple[str, int]] = "start-states", *,
+            budget: int = 1, target: str | None = None,
+            seed: int = 0, length: int | None = None, n_outer: int = N_OUTER,
+            max_draws: int | None = None, chunk_bytes: int = CHUNK_BYTES,
+            cache_bytes: int = CACHE_BYTES, progress: bool = False,
+            backend: Backend | None = None) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -149,16 +155,16 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     chunk_bytes, cache_bytes : memory bounds for the per-draw policies.
     progress : bool
         A status line (greedy step, per-draw policy solves) on a terminal; never elsewhere.
-    cluster : str or distributed.Client, optional
-        Split the work across a Dask cluster: ``"local"`` (a ``LocalCluster`` of processes
-        for this call), a scheduler address (``"tcp://host:8786"``) or a
-        ``distributed.Client``. The problem is sent to every worker once; the per-draw
-        policy solves run as one task per block of draws (fixed blocks of up to
-        ``policies.BLOCK_DRAWS`` draws, each starting cold) and each greedy step scores
-        candidates in tasks of ``work.CANDIDATE_CHUNK``. A local run uses the same blocks
-        and groups, so the same seed gives bit-identical suggestions with or without a
-        cluster, whatever its number of workers. The greedy picks stay sequential. Needs
-        ``bayesirl[cluster]``.
+    backend : Serial or Cluster, optional
+        Where the work runs (:mod:`bayesirl.execution.backend`); default ``Serial()``, this
+        process. ``Cluster("local" | address | client)`` splits it across a Dask cluster
+        (``"local"``: a ``LocalCluster`` of processes for this call). The problem is sent to
+        every worker once; the per-draw policy solves run as one task per block of draws
+        (fixed blocks of up to ``policies.BLOCK_DRAWS`` draws, each starting cold) and each
+        greedy step scores candidates in tasks of ``work.CANDIDATE_CHUNK``. A local run uses
+        the same blocks and groups, so the same seed gives bit-identical suggestions with or
+        without a cluster, whatever its number of workers. The greedy picks stay sequential.
+        Needs ``bayesirl[cluster]``.
 
     Returns
     -------
@@ -177,6 +183,9 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     InputError
         Bad arguments, or a cluster that cannot be reached or runs another version.
     """
+    where = backend_of(backend, Serial())
+    if isinstance(where, Processes):
+        where.session(0)  # refused there, with the reason, before any work
     lik = posterior.model.likelihood
     mdp = lik.mdp
     kinds, states, explicit = _parse_candidates(candidates, mdp.n_states)
@@ -184,36 +193,34 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     length = _demo_length(mdp, lik.demos, length)
     if int(n_outer) != n_outer or n_outer < 2:
         raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
-    if cluster is not None:
-        dask_cluster.check_arguments(cluster, None, False, None)
     weights, betas = posterior_draws(posterior, max_draws)
     g = target_values(posterior, weights, target)
-    policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    policies = DrawPolicies(mdp, weights, betas, lik.q_function, chunk_bytes, cache_bytes)
     outer = outer_samples(policies.n, int(n_outer), seed)
     gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)
     try:
-        with _backend(cluster, policies, gg, outer) as backend:
-            return Suggestions(_greedy(backend, policies, kinds, states, explicit, budget,
+        with _work(where, policies, gg, outer) as work:
+            return Suggestions(_greedy(work, policies, kinds, states, explicit, budget,
                                        length, g, seed, status), grid_shape=mdp.grid_shape)
     finally:
         status.close()
 
 
 @contextmanager
-def _backend(cluster, policies, g, outer) -> Iterator[object]:
-    if cluster is None:
-        yield LocalBackend(policies, g, outer)
-        return
-    from bayesirl.design.cluster import DaskBackend
+def _work(where: Backend, policies, g, outer) -> Iterator[object]:
+    """The designer's work on ``where``: in this process, or as tasks through its client."""
+    with where.session(os.cpu_count() or 1) as client:
+        if client is None:
+            yield LocalBackend(policies, g, outer)
+            return
+        from bayesirl.design.cluster import DaskBackend
 
-    with dask_cluster.connect(cluster, os.cpu_count() or 1) as client:
-        dask_cluster.check_workers(client)
-        backend = DaskBackend(client, policies, g, outer)
+        work = DaskBackend(client, policies, g, outer)
         try:
-            yield backend
+            yield work
         finally:
-            backend.close()
+            work.close()
 
 
 def _greedy(backend, policies, kinds, states, explicit, budget, length, g, seed,

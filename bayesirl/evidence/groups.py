@@ -9,10 +9,13 @@ solve from another demonstrator's solution.
 from __future__ import annotations
 
 import inspect
+from typing import TYPE_CHECKING
 
 from bayesirl.evidence.boltzmann import BoltzmannTerm
 from bayesirl.evidence.model import Evidence
-from bayesirl.likelihood import BoltzmannLikelihood
+
+if TYPE_CHECKING:
+    from bayesirl.likelihood import BoltzmannLikelihood
 
 
 def weights_name(index: int) -> str:
@@ -23,6 +26,8 @@ def weights_name(index: int) -> str:
 def likelihood_settings(likelihood) -> dict:
     """Every constructor setting of ``likelihood`` but its MDP and demonstrations (so a
     setting added to BoltzmannLikelihood later reaches the per-demonstrator copies too)."""
+    from bayesirl.likelihood import BoltzmannLikelihood  # the solvers load on first use
+
     names = inspect.signature(BoltzmannLikelihood).parameters
     return {n: getattr(likelihood, n) for n in names
             if n not in ("mdp", "demos") and hasattr(likelihood, n)}
@@ -30,6 +35,8 @@ def likelihood_settings(likelihood) -> dict:
 
 def split_likelihood(likelihood) -> list[BoltzmannLikelihood]:
     """One likelihood per demonstrator of ``likelihood.demos``, same MDP and settings."""
+    from bayesirl.likelihood import BoltzmannLikelihood
+
     demos, settings = likelihood.demos, likelihood_settings(likelihood)
     return [BoltzmannLikelihood(likelihood.mdp, demos.subset(episodes), **settings)
             for episodes in demos.groups().values()]

@@ -3,7 +3,7 @@
 Exactly one world table: ``[map]`` (a grid from a text map and a legend), ``[arrays]``
 (transitions and features from an ``.npz`` file, or features from a CSV) or ``[gym]`` (a
 gymnasium toy-text environment plus a feature specification). The format is described with
-complete examples in docs/cli-and-files.md.
+complete examples in README.md ("Problem files (TOML)").
 """
 
 from __future__ import annotations
@@ -43,7 +43,8 @@ class Problem:
     prior : prior object for the weights
     rationality : float (fixed) or LogNormal (sampled)
     pin : dict of pinned weights (needed when the rationality is sampled)
-    demonstrator : "soft" or "optimal" (the Q the Boltzmann policy uses)
+    q_function : "soft" or "optimal" (the Q the Boltzmann policy uses; ``[model]
+        q_function``, called ``demonstrator`` before 0.2)
     sampler : keyword arguments for :func:`bayesirl.sample`
     solver : keyword arguments for :class:`bayesirl.BoltzmannLikelihood` (numerical settings)
     source : the problem file
@@ -57,7 +58,7 @@ class Problem:
     prior: object
     rationality: object
     pin: dict
-    demonstrator: str
+    q_function: str
     sampler: dict
     source: Path
     title: str = ""
@@ -115,7 +116,11 @@ def read_problem(path) -> Problem:
                          "one of [map], [arrays] or [gym]")
     world = worlds[0]
     model = top.table("model", {})
-    model.only({"discount", "horizon", "demonstrator"})
+    if "demonstrator" in model:  # the 0.1 name; "demonstrator" now names a person
+        raise InputError(f"{model.where('demonstrator')}: renamed q_function (the same "
+                         "values, \"soft\" or \"optimal\"): write q_function = "
+                         f"{model.data['demonstrator']!r}".replace("'", '"'))
+    model.only({"discount", "horizon", "q_function"})
     horizon = model.integer("horizon", None, low=1) if "horizon" in model else None
     if horizon is not None and horizon > MAX_HORIZON:
         raise model.fail("horizon", horizon, f"an integer <= {MAX_HORIZON} (for long tasks "
@@ -124,7 +129,7 @@ def read_problem(path) -> Problem:
         discount = model.number("discount", 0.95, low=0.0, high=1.0, high_open=True)
     else:
         discount = model.number("discount", 1.0, low=0.0, high=1.0)
-    demonstrator = model.string("demonstrator", "soft", choices=("soft", "optimal"))
+    q_function = model.string("q_function", "soft", choices=("soft", "optimal"))
     build = {"map": arrays_mod.from_map, "arrays": arrays_mod.from_arrays,
              "gym": arrays_mod.from_gym}[world]
     parts = build(top.table(world))
@@ -147,7 +152,7 @@ def read_problem(path) -> Problem:
     rationality, pin = rationality_from(top.table("rationality", {}), features)
     return Problem(
         mdp=mdp, action_names=names, prior=prior_from(top.table("prior", {}), features),
-        rationality=rationality, pin=pin, demonstrator=demonstrator,
+        rationality=rationality, pin=pin, q_function=q_function,
         sampler=sampler_from(top.table("sampler", {})), source=path,
         title=top.string("title", ""), world=world, blocked=frozenset(parts.blocked),
         solver=solver_from(top.table("solver", {})),

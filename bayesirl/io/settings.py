@@ -6,13 +6,13 @@ import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.io.fields import Table
-from bayesirl.likelihood.soft import (
+from bayesirl.priors import DEFAULT_SCALE, PRIORS, LogNormal
+from bayesirl.solver.defaults import (
     ADJOINT_RTOL,
     DEFAULT_TOL,
     MAX_LINEAR_ITERATIONS,
     MAX_NEWTON_STEPS,
 )
-from bayesirl.priors import DEFAULT_SCALE, PRIORS, LogNormal
 
 # Weight priors by name and the parameters each takes (with defaults).
 WEIGHT_PRIORS = {"normal": {"loc": 0.0, "scale": DEFAULT_SCALE},

@@ -45,7 +45,7 @@ def _prior_fields(prior) -> dict:
 
 
 def write_problem(path, mdp, *, action_names=None, prior=None, rationality=1.0, pin=None,
-                  demonstrator: str = "soft", sampler: dict | None = None,
+                  q_function: str = "soft", sampler: dict | None = None,
                   title: str = "") -> Path:
     """Write ``mdp`` and the fitting settings as a problem file that reads back identically.
 
@@ -58,7 +58,7 @@ def write_problem(path, mdp, *, action_names=None, prior=None, rationality=1.0, 
     prior : Normal, Laplace or Uniform, optional
     rationality : float or LogNormal
     pin : dict, optional
-    demonstrator : {"soft", "optimal"}
+    q_function : {"soft", "optimal"}
     sampler : dict, optional
         ``chains``, ``draws``, ``warmup``, ``seed``, ``method``, ...
     title : str
@@ -79,7 +79,7 @@ def write_problem(path, mdp, *, action_names=None, prior=None, rationality=1.0, 
         np.savez(fh, **arrays)
     parts = [f"title = {toml_value(title)}\n"] if title else []
     parts.append(toml_table("model", {"discount": float(mdp.discount), "horizon": mdp.horizon,
-                                      "demonstrator": demonstrator}))
+                                      "q_function": q_function}))
     parts.append(toml_table("arrays", {
         "npz": npz.name, "feature_names": list(mdp.feature_names),
         "actions": list(action_names) if action_names else None,

@@ -1,19 +1,23 @@
 """Log-likelihood of demonstrations under a Boltzmann-rational demonstrator, with gradients.
 
-``q="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model. ``q="optimal"``:
+``q_function="soft"``: actions ~ exp(beta Q_soft), the maximum-causal-entropy model.
+``q_function="optimal"``:
 actions ~ exp(beta Q*) with Q* of the hard-optimal policy (the classic Bayesian-IRL model).
-The gradient comes from one adjoint solve; derivations in DEVELOPERS.md ("Likelihood").
+The gradient comes from one adjoint solve; derivations in docs/likelihood.md.
 """
 
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple, Protocol
 
 import numpy as np
 
 from bayesirl.errors import InputError
 from bayesirl.likelihood import optimal, soft, warm
 from bayesirl.likelihood.counts import demo_counts
+
+if TYPE_CHECKING:
+    from bayesirl.model import Demonstrations, TabularMDP
 
 
 class LikelihoodValue(NamedTuple):
@@ -32,9 +36,14 @@ class BoltzmannLikelihood:
     mdp : TabularMDP
     demos : Demonstrations
         Checked against ``mdp`` (ranges, horizon, every recorded transition).
-    rationality : float
-        Default inverse temperature ``beta`` (a sampler may pass another per call).
-    q : {"soft", "optimal"}
+    rationality : float or LogNormal
+        The inverse temperature ``beta``, in the same forms as :func:`bayesirl.sample`'s
+        ``rationality``: a positive number (fixed), or a prior such as
+        ``bayesirl.LogNormal(0, 1)``, which ``sample`` then samples (pin one weight). With a
+        prior, ``evaluate``/``value`` without an explicit rationality use its median
+        ``exp(mu)``.
+    q_function : {"soft", "optimal"}
+        The Q-function of the Boltzmann policy: soft (maximum causal entropy) or optimal.
     tol : float
         Span tolerance of the soft Bellman solve (discounted model): the log-likelihood is
         then accurate to about ``2 * n_steps * tol``.
@@ -56,20 +65,23 @@ class BoltzmannLikelihood:
     """
 
     def __init__(
-        self, mdp, demos, rationality: float = 1.0, q: str = "soft", tol: float = 1e-10,
+        self, mdp: TabularMDP, demos: Demonstrations, *,
+        rationality: float | RationalityPrior = 1.0,
+        q_function: str = "soft",
+        tol: float = 1e-10,
         gradient_rtol: float = soft.ADJOINT_RTOL,
         max_newton_steps: int = soft.MAX_NEWTON_STEPS,
         max_linear_iterations: int = soft.MAX_LINEAR_ITERATIONS,
     ) -> None:
-        if q not in ("soft", "optimal"):
-            raise InputError(f"q: expected 'soft' or 'optimal'; got {q!r}")
+        if q_function not in ("soft", "optimal"):
+            raise InputError(f"q_function: expected 'soft' or 'optimal'; got {q_function!r}")
         if not hasattr(demos, "check") or not hasattr(demos, "episodes"):
             raise InputError(f"demos: expected Demonstrations; got {type(demos).__name__}")
         demos.check(mdp)
-        self.mdp, self.demos, self.q = mdp, demos, q
-        self.rationality = _positive(rationality)
+        self.mdp, self.demos, self.q_function = mdp, demos, q_function
+        self.rationality_prior, self.rationality = _rationality(rationality)
         self.counts = demo_counts(mdp, demos)
-        self._model = soft if q == "soft" else optimal
+        self._model = soft if q_function == "soft" else optimal
         self.tol = float(tol)
         self.gradient_rtol = float(gradient_rtol)
         if not 0.0 < self.gradient_rtol < 1.0:
@@ -89,12 +101,12 @@ class BoltzmannLikelihood:
         # sent to another process starts cold and builds its own.
         state = self.__dict__.copy()
         state["_cache"] = None
-        state["_model"] = None  # a module; restored from ``q``
+        state["_model"] = None  # a module; restored from ``q_function``
         return state
 
     def __setstate__(self, state: dict) -> None:
         self.__dict__.update(state)
-        self._model = soft if self.q == "soft" else optimal
+        self._model = soft if self.q_function == "soft" else optimal
         self._cache = self._new_cache()
 
     def _new_cache(self) -> dict:
@@ -165,6 +177,28 @@ def _count(value, name: str) -> int:
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
         raise InputError(f"{name}: expected a whole number >= 1; got {value!r}")
     return int(value)
+
+
+class RationalityPrior(Protocol):
+    """A prior on the rationality (``bayesirl.LogNormal``): sampled on ``log(beta)``."""
+
+    mu: float
+    sigma: float
+
+    def log_density(self, z: np.ndarray) -> tuple[float, np.ndarray]: ...
+
+
+def _rationality(value) -> tuple[RationalityPrior | None, float]:
+    """``(prior or None, default beta)``: a prior's default is its median ``exp(mu)``."""
+    if hasattr(value, "log_density"):
+        mu = getattr(value, "mu", None)
+        if np.ndim(mu) != 0 or not np.isfinite(float(mu)):
+            raise InputError(f"rationality: a prior needs one finite log_mean (mu); got {value!r}")
+        return value, _positive(float(np.exp(float(mu))))
+    if isinstance(value, str | bytes | bool | np.bool_):  # float("1.0") would pass
+        raise InputError(f"rationality: expected a positive number or a LogNormal prior; got "
+                         f"{value!r}")
+    return None, _positive(value)
 
 
 def _positive(beta) -> float:

@@ -1,7 +1,7 @@
 """Soft-Q (maximum causal entropy) likelihood: discounted and finite-horizon.
 
 Internally the reward is ``beta * phi . w`` with unit temperature, since the policy depends on
-``beta * w`` only. Discounted gradient (DEVELOPERS.md, "Likelihood"):
+``beta * w`` only. Discounted gradient (docs/likelihood.md):
 
     rho = sum_t (g P(.|s_t,a_t) - e_{s_t}),   (I - g P_pi^T) m = rho,
     dL/dw = beta * (sum_t phi(s_t,a_t) + sum_s m(s) phi_pi(s)).
@@ -16,26 +16,20 @@ from bayesirl.kernels import adjoint_dense
 from bayesirl.likelihood.counts import policy_feature_sum, push_back
 from bayesirl.likelihood.predict import predict, remember
 from bayesirl.solver import (
-    DEFAULT_TOL,
     Preconditioner,
     forward_adjoint,
     soft_backward,
     soft_newton,
     solve_discounted,
 )
+from bayesirl.solver.defaults import (  # noqa: F401 - ADJOINT_RTOL, ... are read as soft.*
+    ADJOINT_RTOL,
+    DEFAULT_TOL,
+    MAX_LINEAR_ITERATIONS,
+    MAX_NEWTON_STEPS,
+)
 
-# Relative tolerance of the adjoint solve: the gradient's relative error is about this
-# (measured on random MDPs, S = 10^4: 1e-8 -> 8.7e-9). A sampler needs far less: leapfrog
-# steps are volume-preserving and reversible for any deterministic vector field, and the
-# acceptance uses the log-likelihood, whose own tolerance is separate. Gradient checks pass
-# a tighter value (BoltzmannLikelihood(gradient_rtol=...)).
-ADJOINT_RTOL = 1e-8
-
-
-# Caps on the work of one evaluation (BoltzmannLikelihood's max_newton_steps and
-# max_linear_iterations; problem files set them in [solver]).
-MAX_NEWTON_STEPS = 50
-MAX_LINEAR_ITERATIONS = 3000
+# Defaults of the adjoint tolerance and the work caps: bayesirl/solver/defaults.py.
 
 
 def new_cache(mdp, counts, tol: float = DEFAULT_TOL, gradient_rtol: float = ADJOINT_RTOL,

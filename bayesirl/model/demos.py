@@ -26,7 +26,7 @@ class Demonstrations:
     :meth:`check` (the likelihood and simulation call it).
     """
 
-    def __init__(self, episodes: Sequence[tuple[np.ndarray, np.ndarray]],
+    def __init__(self, episodes: Sequence[tuple[np.ndarray, np.ndarray]], *,
                  demonstrators: Sequence[str] | None = None) -> None:
         if len(episodes) == 0:
             raise InputError("demonstrations: the set is empty; give at least one episode")
@@ -66,7 +66,7 @@ class Demonstrations:
                     f"{s_arr.shape[0]} states; expected {a_arr.shape[0]} or {a_arr.shape[0] + 1}"
                 )
             episodes.append((s_arr, a_arr))
-        return cls(episodes, demonstrators)
+        return cls(episodes, demonstrators=demonstrators)
 
     @property
     def n_episodes(self) -> int:
@@ -103,7 +103,7 @@ class Demonstrations:
         """The demonstrations of the given episode indices (names kept)."""
         idx = [int(k) for k in episodes]
         names = None if self.demonstrators is None else [self.demonstrators[k] for k in idx]
-        return Demonstrations([self.episodes[k] for k in idx], names)
+        return Demonstrations([self.episodes[k] for k in idx], demonstrators=names)
 
     def check(self, mdp) -> None:
         """Check ranges, horizon and every recorded transition against ``mdp``.

@@ -2,20 +2,20 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
+
 import numpy as np
 import scipy.sparse as sp
+from numpy.typing import ArrayLike
 
 from bayesirl.errors import InputError
 from bayesirl.model import validate
-from bayesirl.solver import (
-    DEFAULT_TOL,
-    Dynamics,
-    FiniteSolution,
-    SoftSolution,
-    soft_backward,
-    soft_newton,
-    soft_value_iteration,
-)
+from bayesirl.solver.defaults import DEFAULT_TOL
+from bayesirl.solver.dynamics import Dynamics
+
+if TYPE_CHECKING:
+    from bayesirl.solver import FiniteSolution, SoftSolution
 
 
 class TabularMDP:
@@ -43,13 +43,14 @@ class TabularMDP:
 
     def __init__(
         self,
-        transitions,
-        features,
+        transitions: ArrayLike | sp.spmatrix | sp.sparray,
+        features: ArrayLike,
+        *,
         discount: float = 0.95,
         horizon: int | None = None,
-        start=None,
-        feature_names=None,
-        grid_shape=None,
+        start: ArrayLike | None = None,
+        feature_names: Sequence[str] | None = None,
+        grid_shape: tuple[int, int] | None = None,
     ) -> None:
         matrix, n_s, n_a = validate.transition_matrix(transitions)
         self.transitions: sp.csr_matrix = matrix
@@ -111,6 +112,9 @@ class TabularMDP:
         ``method`` is ``"newton"`` (soft policy iteration, default) or ``"value-iteration"``;
         it is ignored with a finite horizon, where the backward recursion is exact.
         """
+        # The solvers (numba, sparse linear algebra) load on the first solve, not at import.
+        from bayesirl.solver import soft_backward, soft_newton, soft_value_iteration
+
         beta = _check_rationality(rationality)
         reward = beta * self.reward(weights)
         if self.horizon is not None:

@@ -2,22 +2,29 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 from bayesirl.errors import InputError
-from bayesirl.kernels import sample_episodes
 from bayesirl.model.demos import Demonstrations
 from bayesirl.model.validate import distribution
 
+if TYPE_CHECKING:
+    from bayesirl.model.mdp import TabularMDP
+
 
 def simulate(
-    mdp,
-    weights,
+    mdp: TabularMDP,
+    weights: ArrayLike,
+    *,
     episodes: int,
     length: int,
     rationality: float = 1.0,
     seed: int | np.random.Generator = 0,
-    start=None,
+    start: int | Sequence[float] | np.ndarray | None = None,
 ) -> Demonstrations:
     """Sample ``episodes`` episodes of ``length`` actions from the Boltzmann-rational policy.
 
@@ -50,6 +57,8 @@ def simulate(
     starts = _start_states(mdp, start, int(episodes), rng)
     uniforms = rng.random((int(episodes), int(length), 2))
     dyn = mdp.dynamics
+    from bayesirl.kernels import sample_episodes  # numba loads on first use
+
     states, actions = sample_episodes(
         dyn.indptr, dyn.indices, dyn.data, np.ascontiguousarray(policy), starts, int(length),
         uniforms,

@@ -26,7 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.evidence import demonstrator_evidence, weights_name
+from bayesirl.evidence.groups import weights_name
 from bayesirl.posterior.model import (
     _LOG_MAX,
     PosteriorModel,
@@ -313,6 +313,8 @@ def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None)
     start) per demonstrator.
     """
     pooling = as_pooling(pooling)
+    if rationality is None:  # the likelihood's own: a number, or a prior to sample
+        rationality = getattr(likelihood, "rationality_prior", None)
     if pooling.kind == "pooled":
         return PosteriorModel(likelihood, prior, rationality, pin)
     if likelihood.demos.demonstrators is None:
@@ -320,5 +322,7 @@ def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None)
                          "demonstrator (CSV column or JSON Lines key 'demonstrator'); none do")
     names = list(likelihood.demos.groups())
     beta = likelihood.rationality if rationality is None else rationality
+    from bayesirl.evidence import demonstrator_evidence  # the likelihood stack, on use
+
     return GroupModel(demonstrator_evidence(likelihood), likelihood.mdp.feature_names, names,
                       pooling, prior, beta, pin, likelihood)

@@ -13,7 +13,6 @@ import math
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.evidence import pooled_evidence
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
 _LOG_MAX = math.log(np.finfo(float).max)
@@ -37,11 +36,15 @@ class PosteriorModel:
     def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
         self.likelihood = likelihood
         # prior + sum of evidence terms; here the one term of every episode together
+        from bayesirl.evidence import pooled_evidence  # the likelihood stack, on first use
+
         self.evidence = pooled_evidence(likelihood)
         names = likelihood.mdp.feature_names
         self.feature_names = names
         self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior
         self.pin = _check_pin(pin, names)
+        if rationality is None:  # the likelihood's own: a number, or a prior to sample
+            rationality = getattr(likelihood, "rationality_prior", None)
         self.rationality_prior = rationality if hasattr(rationality, "log_density") else None
         if self.rationality_prior is None:
             beta = likelihood.rationality if rationality is None else rationality

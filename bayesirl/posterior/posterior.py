@@ -97,6 +97,7 @@ class Posterior:
         """Draws per chain."""
         return self.weights.shape[1]
 
+    @property
     def param_names(self) -> tuple[str, ...]:
         """Names of every sampled quantity, in ArviZ's flattened order."""
         names = self.feature_names
@@ -111,7 +112,7 @@ class Posterior:
     def diagnostics(self) -> diag.Diagnostics:
         """R-hat, ESS, divergences and E-BFMI (computed once)."""
         if self._diagnostics is None:
-            self._diagnostics = diag.compute(self.to_arviz(), self.param_names(),
+            self._diagnostics = diag.compute(self.to_arviz(), self.param_names,
                                              fixed=self._fixed_names())
         return self._diagnostics
 
@@ -134,7 +135,7 @@ class Posterior:
         head = (f"{'parameter':<14}{'mean':>9}{'sd':>8}{f'{lo:g}%':>9}{f'{hi:g}%':>9}"
                 f"{'R-hat':>7}{'ESS bulk':>10}{'ESS tail':>10}")
         rows = [head] + group_heading(self.groups)
-        for k, (name, x) in enumerate(zip(self.param_names(), cols, strict=True)):
+        for k, (name, x) in enumerate(zip(self.param_names, cols, strict=True)):
             q = np.percentile(x, [lo, hi])
             rows.append(f"{name:<14}{x.mean():9.3f}{x.std(ddof=1):8.3f}{q[0]:9.3f}{q[1]:9.3f}"
                         f"{d.rhat[k]:7.3f}{d.ess_bulk[k]:10.0f}{d.ess_tail[k]:10.0f}")

@@ -60,7 +60,7 @@ def problem_meta(model: PosteriorModel) -> dict:
     lik = model.likelihood
     mdp = lik.mdp
     return {"n_states": mdp.n_states, "n_actions": mdp.n_actions, "discount": mdp.discount,
-            "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q,
+            "horizon": mdp.horizon, "feature_names": list(mdp.feature_names), "q": lik.q_function,
             "tol": lik.tol, "gradient_rtol": getattr(lik, "gradient_rtol", None),
             "max_newton_steps": getattr(lik, "max_newton_steps", None),
             "max_linear_iterations": getattr(lik, "max_linear_iterations", None),
@@ -87,7 +87,8 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
            else [str(x) for x in const["demo_demonstrators"].values])
     demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
                                        np.split(const["demo_actions"].values, a_cut), who)
-    lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"], q=pm["q"],
+    lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"],
+                              q_function=pm["q"],
                               tol=pm["tol"], **_solver_settings(pm))
     spec = meta["model"]
     pooling = Pooling.from_spec(spec["pooling"]) if "pooling" in spec else None

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -11,14 +13,12 @@ from bayesirl.files import write_json, write_text
 from bayesirl.posterior.diagnostics import EBFMI_MIN, ESS_MIN, RHAT_MAX
 from bayesirl.report import derived, structural, verdicts
 from bayesirl.report.suggestions import as_records
+from bayesirl.report.verdicts import CAUTION
 from bayesirl.report.weights import directions, groups, mark_groups, weights_table
 
-CAUTION = (
-    "These intervals are conditional on the features, the dynamics and the Boltzmann-rational "
-    "demonstrator model given to the tool. Where they inform a behaviour that can hurt someone "
-    "(a robot, a vehicle), they are not a safety certification: defer to the applicable "
-    "standards and to qualified review."
-)
+if TYPE_CHECKING:
+    from bayesirl.posterior import Posterior
+    from bayesirl.priors import Prior
 
 
 @dataclass
@@ -90,8 +90,8 @@ def _assumptions(posterior) -> dict:
     mdp = lik.mdp
     beta = ("sampled" if posterior.rationality is not None
             else f"fixed at {posterior.model.fixed_rationality:g}")
-    return {"demonstrator": f"Boltzmann-rational, q={lik.q!r} "
-                            f"({'maximum causal entropy' if lik.q == 'soft' else 'optimal-Q'})",
+    kind = "maximum causal entropy" if lik.q_function == "soft" else "optimal-Q"
+    return {"q_function": f"Boltzmann-rational, q_function={lik.q_function!r} ({kind})",
             "rationality": beta, "pinned": posterior.model.pin,
             "horizon": mdp.horizon, "discount": mdp.discount,
             "states": mdp.n_states, "actions": mdp.n_actions,
@@ -99,9 +99,11 @@ def _assumptions(posterior) -> dict:
             "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior)}
 
 
-def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
-              alpha: float | None = None, suggestions=None,
-              tolerance: float | None = None, action_names=None) -> AmbiguityReport:
+def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None = None,
+              truth: Sequence[float] | np.ndarray | None = None, states: Sequence[int] = (),
+              risk_level: float | None = None, suggestions: Sequence | None = None,
+              tolerance: float | None = None,
+              action_names: Sequence[str] | None = None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
@@ -109,15 +111,17 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
     posterior : Posterior
     level : float
         Credible level of every interval, of the verdicts read from them and (unless
-        ``alpha`` is given) of the policy-risk bound.
+        ``risk_level`` is given) of the policy-risk bound.
     prior : prior object, optional
         The prior to measure contraction against (default: the one used for sampling).
     truth : array (F,), optional
         True weights, for simulations: adds posterior z-scores.
     states : sequence of int
         States at which to report action probabilities.
-    alpha : float, optional
-        Quantile of the policy-risk bound (default: ``level``).
+    risk_level : float, optional
+        Credible level of the one-sided policy-risk bound, in (0, 1): the bound is exceeded
+        with posterior probability ``1 - risk_level`` (default: ``level``). Called
+        ``alpha`` before 0.2.
     suggestions : list, optional
         The output of :func:`bayesirl.suggest`, stored as plain records (in the JSON and as a
         section of the HTML page, drawn on the map for grid problems).
@@ -131,7 +135,7 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
         probability table.
     """
     tolerance = verdicts.check_tolerance(tolerance)
-    alpha = level if alpha is None else alpha
+    risk_level = level if risk_level is None else risk_level
     lik = posterior.model.likelihood
     names = _action_names(action_names, lik.mdp.n_actions)
     table = weights_table(posterior, level, prior, truth, tolerance)
@@ -147,7 +151,7 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
         derived={"ratios": derived.ratios(posterior, table, level),
                  "action_probabilities": derived.action_probabilities(posterior, states, level),
                  "action_names": names},
-        policy_risk=derived.policy_risk(posterior, alpha),
+        policy_risk=derived.policy_risk(posterior, risk_level),
         diagnostics=_diagnostics(posterior), assumptions=_assumptions(posterior),
         groups=entangled, tolerance=tolerance,
         suggestions=as_records(suggestions), posterior=posterior,

@@ -13,7 +13,6 @@ from html import escape
 import numpy as np
 
 from bayesirl.report import maps, plots, suggestions, verdicts
-from bayesirl.report.ambiguity import CAUTION
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
 # Stable anchors: other documents and the tests link to these, so renaming one is a break.
@@ -61,7 +60,7 @@ def render_html(report) -> str:
              _structural(report), _derived(report), _policy_risk(report),
              _maps(report), suggestions.render(report),
              _diagnostics(report), _assumptions(report),
-             section("caution", f'<p class="caution">{escape(CAUTION)}</p>')]
+             section("caution", f'<p class="caution">{escape(verdicts.CAUTION)}</p>')]
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f'<meta http-equiv="Content-Security-Policy" content="{CSP}">'
             '<meta name="viewport" content="width=device-width, initial-scale=1">'
@@ -314,13 +313,13 @@ def _assumptions(report) -> str:
     pinned = ", ".join(f"{k} = {v:g}" for k, v in (a.get("pinned") or {}).items()) or "none"
     horizon = "none (infinite horizon, discounted)" if a.get("horizon") is None \
         else str(a["horizon"])
-    rows = [["demonstrator", a.get("demonstrator")], ["rationality", a.get("rationality")],
+    rows = [["q_function", a.get("q_function")], ["rationality", a.get("rationality")],
             ["pinned weights", pinned], ["prior on the weights", a.get("prior")],
             ["discount", a.get("discount")], ["horizon", horizon],
             ["states \u00d7 actions", f"{a.get('states')} \u00d7 {a.get('actions')}"],
             ["features", ", ".join(a.get("features", []))],
             ["demonstrations", f"{a.get('episodes')} episodes, {a.get('steps')} steps"]]
-    known = {"demonstrator", "rationality", "pinned", "prior", "discount", "horizon", "states",
+    known = {"q_function", "rationality", "pinned", "prior", "discount", "horizon", "states",
              "actions", "features", "episodes", "steps"}
     rows += [[k, v] for k, v in a.items() if k not in known]
     return section("assumptions", '<p class="note">Every number above holds only under '

@@ -207,7 +207,7 @@ def render_text(records: list[dict], grid_shape=None, top: int = TABLE_TOP) -> s
 
 def render(report) -> str:
     """The HTML section, or an empty string when the report carries no suggestions."""
-    from bayesirl.report.html import figure, table  # html imports this module at load
+    from bayesirl.report.html_parts import figure, table  # plotting loads on first use
 
     records = getattr(report, "suggestions", None) or []
     if not records:

@@ -22,6 +22,15 @@ from __future__ import annotations
 
 import numpy as np
 
+# Printed on every report, text and HTML (kept here, with the words, so the renderers and
+# the report object read it from one module that imports neither).
+CAUTION = (
+    "These intervals are conditional on the features, the dynamics and the Boltzmann-rational "
+    "demonstrator model given to the tool. Where they inform a behaviour that can hurt someone "
+    "(a robot, a vehicle), they are not a safety certification: defer to the applicable "
+    "standards and to qualified review."
+)
+
 # The interval's ends within this factor of each other: "determined" (our choice, see the
 # module doc).
 FACTOR = 2.0

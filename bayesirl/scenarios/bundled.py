@@ -47,7 +47,7 @@ title = "park walks"
 
 [model]
 discount = 0.9
-demonstrator = "soft"
+q_function = "soft"
 
 [map]
 features = ["mud", "slope", "shade", "water"]
@@ -73,7 +73,7 @@ title = "machine replacement"
 [model]
 # Monthly decisions: 0.999 a month is about 1.2% a year.
 discount = 0.999
-demonstrator = "soft"
+q_function = "soft"
 
 [arrays]
 npz = "machine.npz"
@@ -150,8 +150,8 @@ def _write_walkers(folder: Path) -> tuple[Path, Path]:
         episodes += list(demos.episodes)
         names += [who] * EPISODES_EACH
         ids += [f"{who}-{j + 1}" for j in range(EPISODES_EACH)]
-    return problem_path, write_demonstrations(folder / "walks.csv",
-                                              Demonstrations(episodes, names), problem, ids)
+    demos = Demonstrations(episodes, demonstrators=names)
+    return problem_path, write_demonstrations(folder / "walks.csv", demos, problem, ids)
 
 
 def _write_machine(folder: Path) -> tuple[Path, Path]:

@@ -7,8 +7,6 @@ from typing import NamedTuple
 import numpy as np
 import scipy.sparse as sp
 
-from bayesirl.kernels import scale_rows, scale_rows_by_policy, select_rows
-
 # Up to this many states the solvers use dense compiled Newton steps: sparse bookkeeping and
 # Krylov iterations would cost more than the arithmetic (measured: S = 42, 30x faster).
 DENSE_MAX_STATES = 200
@@ -59,12 +57,16 @@ class Dynamics(NamedTuple):
 
     def policy_matrix(self, policy: np.ndarray) -> sp.csr_matrix:
         """``P_pi`` (S, S) for a stochastic policy ``(S, A)``."""
+        from bayesirl.kernels import scale_rows  # numba loads on the first solve, not import
+
         data = scale_rows(self.indptr, self.data, np.ascontiguousarray(policy).ravel())
         ptr = self.indptr[:: self.n_actions]
         return sp.csr_matrix((data, self.indices, ptr), shape=(self.n_states, self.n_states))
 
     def policy_matrix_by_action(self, policy_am: np.ndarray) -> sp.csr_matrix:
         """``P_pi`` (S, S) for an action-major stochastic policy ``(A, S)``."""
+        from bayesirl.kernels import scale_rows_by_policy
+
         data = scale_rows_by_policy(self.indptr, self.data, policy_am)
         ptr = self.indptr[:: self.n_actions]
         return sp.csr_matrix((data, self.indices, ptr), shape=(self.n_states, self.n_states))
@@ -72,6 +74,8 @@ class Dynamics(NamedTuple):
     def greedy_matrix(self, actions: np.ndarray) -> sp.csr_matrix:
         """``P_g`` (S, S) for a deterministic policy given as one action per state."""
         rows = np.arange(self.n_states, dtype=np.int64) * self.n_actions + actions
+        from bayesirl.kernels import select_rows
+
         ptr, idx, dat = select_rows(self.indptr, self.indices, self.data, rows)
         return sp.csr_matrix((dat, idx, ptr), shape=(self.n_states, self.n_states))
 

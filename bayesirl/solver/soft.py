@@ -31,10 +31,9 @@ import numpy as np
 
 from bayesirl.errors import SolverError
 from bayesirl.kernels import soft_max_actions, soft_newton_dense
+from bayesirl.solver.defaults import DEFAULT_TOL
 from bayesirl.solver.dynamics import Dynamics
 from bayesirl.solver.linear import Preconditioner, solve_discounted
-
-DEFAULT_TOL = 1e-10
 
 
 class SoftSolution(NamedTuple):

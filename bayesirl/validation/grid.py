@@ -23,9 +23,10 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP, simulate
-from bayesirl.posterior import sample
 from bayesirl.priors import LogNormal, Normal
 
 SIDE = 4
@@ -154,7 +155,8 @@ class GridSBC:
             rng, self.free.size)
         beta = float(self.rationality.draw(rng, 1)[0]) if self.sampled_rationality else float(
             self.rationality)
-        demos = simulate(self.mdp, weights, self.episodes, self.length, rationality=beta,
+        demos = simulate(self.mdp, weights, episodes=self.episodes, length=self.length,
+                         rationality=beta,
                          seed=rng)
         truth = weights[self.free]
         return (np.append(truth, beta) if self.sampled_rationality else truth), demos
@@ -171,7 +173,7 @@ class GridSBC:
                 lik, self.prior if self.sampler_prior is None else self.sampler_prior,
                 chains=self.chains, draws=int(draws), warmup=self.warmup, seed=int(seed),
                 progress=False, rationality=None if fixed else self.rationality, pin=self.pin,
-                target_accept=self.target_accept, processes=1,
+                target_accept=self.target_accept, backend=Processes(1),
             )
         out = post.weights[:, :, self.free]
         if not fixed:

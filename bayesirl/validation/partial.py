@@ -15,9 +15,10 @@ from functools import cached_property
 
 import numpy as np
 
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP, simulate
-from bayesirl.posterior import sample
 from bayesirl.posterior.groups import Pooling
 from bayesirl.priors import HalfNormal, Normal
 from bayesirl.validation.grid import PosteriorDraws
@@ -66,13 +67,13 @@ class PartialSBC:
                              seed=int(rng.integers(2**31)))
             episodes += list(demos.episodes)
             names += [f"d{d}"] * demos.n_episodes
-        return np.array([mu[0], tau[0], w[0, 0]]), Demonstrations(episodes, names)
+        return np.array([mu[0], tau[0], w[0, 0]]), Demonstrations(episodes, demonstrators=names)
 
     def posterior(self, data, draws: int, seed: int) -> PosteriorDraws:
         """``bayesirl.sample`` with partial pooling, in this process."""
         post = sample(BoltzmannLikelihood(self.mdp, data), Normal(0.0, self.mu_scale),
                       chains=self.chains, draws=draws, warmup=self.warmup, seed=seed,
-                      progress=False, processes=1,
+                      progress=False, backend=Processes(1),
                       pooling=self.sampler_pooling or Pooling("partial",
                                                               HalfNormal(self.spread_scale)))
         g = post.groups

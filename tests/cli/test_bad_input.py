@@ -70,6 +70,10 @@ CASES = [
      ["[model] discount = 1.0", "[0, 1)"]),
     ("zero-horizon", toml("discount = 0.9", "horizon = 0"), CHECK,
      ["[model] horizon = 0", "integer >= 1"]),
+    # 0.1's name of the soft/optimal choice: refused with the new name (negative control:
+    # tests/cli/test_files.py reads q_function = "optimal" back).
+    ("old-demonstrator-key", toml("discount = 0.9", 'discount = 0.9\ndemonstrator = "optimal"'),
+     CHECK, ["[model] demonstrator", "renamed q_function", 'write q_function = "optimal"']),
     ("unknown-prior", toml("[sampler]", "[prior]\nkind = \"cauchy\"\n[sampler]"), CHECK,
      ["[prior] kind = 'cauchy'", "'normal', 'laplace', 'uniform'"]),
     ("negative-prior-scale", toml("[sampler]", "[prior]\nscale = -1.0\n[sampler]"), CHECK,

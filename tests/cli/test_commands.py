@@ -207,14 +207,15 @@ def test_suggest_scheduler_reaches_the_designer(tiny, monkeypatch, capsys):
     real = design.suggest
 
     def spy(posterior, **kwargs):
-        seen.append(kwargs.pop("cluster", None))
+        backend = kwargs.pop("backend", None)
+        seen.append(None if backend is None else backend.where)
         return real(posterior, **kwargs)
 
     monkeypatch.setattr(design, "suggest", spy)
     for extra in (["--scheduler", "local"], []):
         assert main(["--quiet", "suggest", str(run), "--budget", "1", *extra]) == 0
         settings = json.loads((run / "suggestions.json").read_text())["settings"]
-        assert "cluster" not in settings and settings["budget"] == 1
+        assert "backend" not in settings and settings["budget"] == 1
     assert seen == ["local", None]
 
 
@@ -226,7 +227,7 @@ def test_problem_settings_reach_the_sampler(tiny, monkeypatch, capsys):
     seen = {}
 
     def stand_in(lik, **kwargs):
-        seen.update(kwargs, q=lik.q, steps=lik.demos.n_steps)
+        seen.update(kwargs, q=lik.q_function, steps=lik.demos.n_steps)
         raise InputError("stop here")
 
     monkeypatch.setattr(bayesirl, "sample", stand_in)
@@ -276,8 +277,8 @@ def test_machine_example_in_process(tmp_path, capsys):
 def test_resume_prefers_a_newer_checkpoint_left_by_a_killed_resume(tiny, monkeypatch, capsys):
     import os
 
-    from bayesirl.posterior import chains
-    from bayesirl.posterior.interrupt import StopHook
+    from bayesirl.execution import chains
+    from bayesirl.execution.interrupt import StopHook
 
     folder = tiny[0].parent
     monkeypatch.setattr(chains, "TEST_STOP", StopHook(chain=0, iteration=70))

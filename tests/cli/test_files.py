@@ -40,7 +40,7 @@ def test_park_map_equals_the_scenario_built_independently(tmp_path):
     start = np.zeros(ref.n_states)
     start[0] = 1.0  # the map marks the top-left cell as the start
     assert_same_mdp(problem.mdp, bayesirl.TabularMDP(
-        ref.transitions, ref.features, 0.9, start=start, feature_names=ref.feature_names,
+        ref.transitions, ref.features, discount=0.9, start=start, feature_names=ref.feature_names,
         grid_shape=ref.grid_shape))
     assert problem.action_names == ("up", "right", "down", "left")
 
@@ -54,7 +54,7 @@ def test_problem_written_from_python_reads_back_identically(case, tmp_path):
         m = machine_mdp()
         mdp = bayesirl.TabularMDP(m.transitions, m.features, discount=1.0, horizon=12,
                                   start=m.start, feature_names=m.feature_names)
-        kw = {"prior": Laplace(0.5, 2.0), "demonstrator": "optimal",
+        kw = {"prior": Laplace(0.5, 2.0), "q_function": "optimal",
               "sampler": {"chains": 3, "draws": 50, "warmup": 20, "seed": 7}}
     else:
         mdp = park_mdp()
@@ -62,7 +62,7 @@ def test_problem_written_from_python_reads_back_identically(case, tmp_path):
     path = write_problem(tmp_path / "p.toml", mdp, **kw)
     back = read_problem(path)
     assert_same_mdp(back.mdp, mdp)
-    assert back.demonstrator == kw.get("demonstrator", "soft")
+    assert back.q_function == kw.get("q_function", "soft")
     if "prior" in kw:
         assert type(back.prior) is type(kw["prior"])
         for key, value in kw["prior"].__dict__.items():

@@ -14,6 +14,7 @@ import numpy as np
 
 import bayesirl as bi
 from bayesirl.commands import mass
+from bayesirl.execution.backend import Processes
 from bayesirl.io import read_problem
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.scenarios import PARK_WEIGHTS
@@ -65,7 +66,7 @@ def test_near_ridge_is_found_by_the_laplace_correlation(tmp_path):
     # Outside reference: the correlation of NUTS draws from the same posterior.
     rho, _ = mass._laplace_correlation(lik, np.full(5, 25.0), np.zeros(5))
     post = bi.sample(lik, chains=2, draws=400, warmup=300, seed=0, dense_mass=True,
-                     progress=False, processes=1)
+                     progress=False, backend=Processes(1))
     w = post.weights.reshape(-1, 5)
     sampled = abs(np.corrcoef(w[:, 0], w[:, 4])[0, 1])
     # The Laplace approximation is not exact; both must be on the ridge side of 0.9.

@@ -20,7 +20,8 @@ class SlowLikelihood(bi.BoltzmannLikelihood):
 
 def slow_copy(lik: bi.BoltzmannLikelihood, delay: float) -> SlowLikelihood:
     """The same problem as ``lik`` with a ``delay`` per evaluation."""
-    out = SlowLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    out = SlowLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
     out.delay = delay
     return out
 

@@ -1,7 +1,7 @@
-"""``sample(..., cluster=...)`` on a real Dask LocalCluster: same draws as a local run,
+"""``sample(..., backend=Cluster(...))`` on a real Dask LocalCluster: same draws as a local run,
 the problem sent to the workers once, a killed worker's chain rerun, and the CLI option.
 
-The reference for every equality is ``sample(..., processes=1)``, the project's in-process
+The reference for every equality is ``sample(..., backend=Processes(1))``, the project's in-process
 path, which ``tests/posterior/test_seeds.py`` ties to the parallel one; equality is exact
 (``array_equal``) because both run the same arithmetic from the same seed child.
 """
@@ -22,9 +22,10 @@ import pytest
 pytest.importorskip("distributed")
 
 import bayesirl as bi  # noqa: E402
-from bayesirl.posterior import cluster as dc  # noqa: E402
-from bayesirl.posterior.chains import run_job  # noqa: E402
-from bayesirl.posterior.interrupt import Stopper  # noqa: E402
+from bayesirl.execution import cluster as dc  # noqa: E402
+from bayesirl.execution.backend import Cluster, Processes
+from bayesirl.execution.chains import run_job  # noqa: E402
+from bayesirl.execution.interrupt import Stopper  # noqa: E402
 from bayesirl.posterior.model import PosteriorModel  # noqa: E402
 
 from .slowlik import CountingLikelihood, slow_copy  # noqa: E402
@@ -46,7 +47,7 @@ def problem() -> bi.BoltzmannLikelihood:
 
 @cache
 def local_run(seed: int = RUN["seed"]) -> bi.Posterior:
-    return bi.sample(problem(), PRIOR, **{**RUN, "seed": seed}, processes=1)
+    return bi.sample(problem(), PRIOR, **{**RUN, "seed": seed}, backend=Processes(1))
 
 
 def assert_same(a: bi.Posterior, b: bi.Posterior) -> None:
@@ -57,7 +58,7 @@ def assert_same(a: bi.Posterior, b: bi.Posterior) -> None:
 
 
 def test_same_draws_as_the_local_run(client):
-    post = bi.sample(problem(), PRIOR, **RUN, cluster=client)
+    post = bi.sample(problem(), PRIOR, **RUN, backend=Cluster(client))
     assert post.complete and post.weights.shape == (3, 40, 2)
     assert_same(post, local_run())
     # Negative control: the comparison notices another seed's draws.
@@ -67,9 +68,10 @@ def test_same_draws_as_the_local_run(client):
 
 def test_the_problem_is_pickled_once_in_this_process(client):
     lik = problem()
-    counting = CountingLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    counting = CountingLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
     CountingLikelihood.pickled = 0
-    post = bi.sample(counting, PRIOR, **{**RUN, "chains": 4}, cluster=client)
+    post = bi.sample(counting, PRIOR, **{**RUN, "chains": 4}, backend=Cluster(client))
     assert CountingLikelihood.pickled == 1  # once for four chains, not once per task
     assert post.n_chains == 4
 
@@ -143,7 +145,7 @@ def test_a_killed_worker_costs_one_rerun_not_the_posterior(client, monkeypatch):
     monkeypatch.setattr("sys.stderr", stream)
     killer.start()
     try:
-        post = bi.sample(slow, PRIOR, **{**RUN, "progress": True}, cluster=client)
+        post = bi.sample(slow, PRIOR, **{**RUN, "progress": True}, backend=Cluster(client))
     finally:
         killer.join()
     assert killed, "chain 0 was never seen running"
@@ -179,9 +181,10 @@ def test_an_error_in_a_chain_reaches_the_caller(client):
     from .slowlik import NowhereLikelihood
 
     lik = problem()
-    nowhere = NowhereLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    nowhere = NowhereLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
     with pytest.raises(bi.InputError, match="no finite log-posterior"):
-        bi.sample(nowhere, PRIOR, **RUN, cluster=client)
+        bi.sample(nowhere, PRIOR, **RUN, backend=Cluster(client))
     # Nothing of the failed run stays on the cluster (its futures were cancelled).
     time.sleep(0.5)
     left = client.run_on_scheduler(
@@ -194,4 +197,4 @@ def test_workers_with_another_bayesirl_version_are_refused(client, monkeypatch):
     dc.check_workers(client)  # negative control: the same version passes
     monkeypatch.setattr(bi, "__version__", "0.0.0-other")
     with pytest.raises(bi.InputError, match="workers run another bayesirl version"):
-        bi.sample(problem(), PRIOR, **RUN, cluster=client)
+        bi.sample(problem(), PRIOR, **RUN, backend=Cluster(client))

@@ -1,4 +1,4 @@
-"""``suggest(..., cluster=...)`` on a real Dask LocalCluster: the same suggestions as the
+"""``suggest(..., backend=Cluster(...))`` on a real Dask LocalCluster: the same suggestions as the
 local run, bit for bit, the problem sent to the workers once, and ``suggest --scheduler``.
 
 The problem has three blocks of draws and two groups of candidates per kind, so the work
@@ -20,6 +20,7 @@ import bayesirl as bi  # noqa: E402
 from bayesirl.design import cluster as design_cluster  # noqa: E402
 from bayesirl.design.policies import BLOCK_DRAWS  # noqa: E402
 from bayesirl.design.work import CANDIDATE_CHUNK  # noqa: E402
+from bayesirl.execution.backend import Cluster  # noqa: E402
 from bayesirl.posterior.model import PosteriorModel  # noqa: E402
 
 N_STATES, N_DRAWS = CANDIDATE_CHUNK + 4, 2 * BLOCK_DRAWS + 44
@@ -47,7 +48,7 @@ def _table(rows) -> np.ndarray:
 def test_same_suggestions_as_the_local_run(client, kind):
     post = _posterior()
     local = bi.suggest(post, kind, **RUN)
-    remote = bi.suggest(post, kind, **RUN, cluster=client)
+    remote = bi.suggest(post, kind, **RUN, backend=Cluster(client))
     assert [r.candidate for r in remote] == [r.candidate for r in local]  # the order
     assert np.array_equal(_table(remote), _table(local))  # gains, stderrs, sds: every bit
     assert [r.step for r in local[:2]] == [1, 2]
@@ -73,7 +74,7 @@ def test_the_problem_is_scattered_once(client, monkeypatch):
     monkeypatch.setattr(client, "scatter", counting_scatter)
     monkeypatch.setattr(client, "submit", recording_submit)
     mixed = ["start:1", "query:2", 3, "query:5"]
-    remote = bi.suggest(post, mixed, **RUN, cluster=client)
+    remote = bi.suggest(post, mixed, **RUN, backend=Cluster(client))
     monkeypatch.undo()
     assert repr(remote) == repr(bi.suggest(post, mixed, **RUN))  # mixed kinds: same bits too
     blobs = [(d, kw, f) for d, kw, f in scattered if isinstance(d, bytes)]

@@ -1,5 +1,5 @@
 """Start-up: ``import bayesirl`` and ``bayesirl --help`` load none of the heavy libraries, and
-``bayesirl check`` loads no plotting, ArviZ or Dask; the public names resolve on first use.
+``bayesirl check`` loads no plotting, ArviZ, Dask or numba; the public names resolve on first use.
 Times are measured by hand (``python -X importtime``), not here: a timed test on a shared
 machine would be noise. What this checks is which modules get imported.
 """
@@ -48,8 +48,16 @@ def test_check_loads_no_plotting_arviz_or_dask(tmp_path):
     args = ["check", str(problem), str(demos)]
     code = f"from bayesirl.cli import main\nassert main({args!r}) == 0"
     loaded = _loaded(code, tmp_path)
-    assert not set(loaded) & {"matplotlib", "arviz", "arviz_base", "arviz_stats", "dask",
-                              "distributed", "xarray"}, loaded
+    # scipy for the MDP's sparse transitions and the priors; no numba: check solves nothing.
+    assert loaded == ["scipy"], loaded
+
+
+def test_a_solve_loads_the_compiled_kernels(tmp_path):
+    # Negative control for the check above: the solvers' kernels load on the first solve.
+    code = ("import numpy as np\nfrom bayesirl.model import TabularMDP\n"
+            "p = np.full((2, 2, 2), 0.5)\n"
+            "TabularMDP(p, np.eye(2)).soft_policy(np.zeros(2))")
+    assert "numba" in _loaded(code, tmp_path)
 
 
 def test_the_module_check_sees_a_heavy_import(tmp_path):

@@ -21,6 +21,7 @@ import pytest
 import bayesirl as bi
 from bayesirl import suggest
 from bayesirl.design import ranking
+from bayesirl.execution.backend import Processes
 from bayesirl.report.suggestions import as_records, gain_text, render_text
 from bayesirl.scenarios import PARK_WEIGHTS, park_mdp
 
@@ -71,7 +72,7 @@ def _park_posterior():
     mdp = park_mdp()
     demos = bi.simulate(mdp, PARK_WEIGHTS, episodes=40, length=15, seed=1, start=0)
     return bi.sample(bi.BoltzmannLikelihood(mdp, demos), chains=2, draws=300, warmup=300,
-                     seed=0, progress=False, processes=1)
+                     seed=0, progress=False, backend=Processes(1))
 
 
 def test_park_top_pick_is_stable_or_said_to_be_unsettled():

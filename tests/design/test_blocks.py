@@ -1,6 +1,6 @@
 """The designer's numbers are defined by the seed alone: fixed blocks of draws, per-candidate
 random numbers. Re-solving the policies (no cache) or scoring fewer candidates changes no
-bit; these are the properties that let ``suggest(..., cluster=...)`` match a local run."""
+bit; these are the properties that let ``suggest(..., backend=Cluster(...))`` match a local run."""
 
 from __future__ import annotations
 

@@ -7,7 +7,7 @@ import io
 import numpy as np
 
 import bayesirl as bi
-from bayesirl.posterior.progress import StatusLine
+from bayesirl.execution.progress import StatusLine
 
 from .conftest import posterior_from_draws, some_demos, toy_mdp
 

@@ -145,7 +145,7 @@ def test_gradient_matches_central_differences(state_action, q_model, discount, h
     mdp = _case_mdp(seed, state_action, discount, horizon)
     demos = _ragged(bi.simulate(mdp, np.random.default_rng(seed).normal(size=mdp.n_features),
                                 episodes=6, length=horizon or 10, rationality=BETA, seed=seed))
-    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q_model)
+    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q_function=q_model)
     w = _weights(mdp, seed, q_model)
     v = lik.evaluate(w, BETA)
 
@@ -170,7 +170,7 @@ def test_log_rationality_identity(q_model, discount, horizon):
     mdp = _case_mdp(seed, True, discount, horizon)
     demos = bi.simulate(mdp, np.ones(mdp.n_features), episodes=5, length=horizon or 8,
                         rationality=BETA, seed=seed)
-    lik = bi.BoltzmannLikelihood(mdp, demos, q=q_model)
+    lik = bi.BoltzmannLikelihood(mdp, demos, q_function=q_model)
     w = _weights(mdp, seed, q_model)
     base = lik.evaluate(w, BETA).loglik
     for c in (0.5, 1.0, 3.0):
@@ -203,7 +203,7 @@ def test_warm_start_equals_cold_start(q_model, state_action, discount, horizon):
     mdp = _case_mdp(seed, state_action, discount, horizon)
     demos = bi.simulate(mdp, np.random.default_rng(seed).normal(size=mdp.n_features),
                         episodes=6, length=horizon or 10, rationality=BETA, seed=seed)
-    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q_model)
+    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q_function=q_model)
     rng = np.random.default_rng(seed + 1)
     w, beta = rng.normal(size=mdp.n_features), BETA
     rtol = (soft_model if q_model == "soft" else optimal_model).ADJOINT_RTOL
@@ -213,7 +213,8 @@ def test_warm_start_equals_cold_start(q_model, state_action, discount, horizon):
         w = w + step * rng.normal(size=w.shape)
         beta = beta * np.exp(step * rng.normal())
         warm = lik.evaluate(w, beta)
-        cold = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q_model).evaluate(w, beta)
+        cold = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA,
+                                      q_function=q_model).evaluate(w, beta)
         if horizon is not None:
             assert warm.loglik == cold.loglik
             np.testing.assert_array_equal(warm.grad_weights, cold.grad_weights)
@@ -242,7 +243,7 @@ def test_one_step_models_are_conditional_logit(q_model, state_action, discount, 
     mdp = _case_mdp(7, state_action, discount, horizon)
     demos = bi.simulate(mdp, np.ones(mdp.n_features), episodes=40, length=horizon or 3,
                         rationality=BETA, seed=8)
-    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q_model)
+    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=BETA, q_function=q_model)
     rng = np.random.default_rng(9)
     for _ in range(3):
         w = rng.normal(size=mdp.n_features)

@@ -160,9 +160,11 @@ CASES = [
     ("rationality-zero",
      lambda: bi.BoltzmannLikelihood(_mdp(), _demos([[0, 1]], [[0]])).evaluate([0.0, 0.0], 0.0),
      [r"rationality", r"positive", r"0\.0"]),
-    ("q-model", lambda: bi.BoltzmannLikelihood(_mdp(), _demos([[0, 1]], [[0]]), q="hard"),
-     [r"q", r"'soft' or 'optimal'", r"'hard'"]),
-    ("simulate-beyond-horizon", lambda: bi.simulate(_mdp(horizon=3), [1.0, 0.0], 2, 4),
+    ("q-model", lambda: bi.BoltzmannLikelihood(_mdp(), _demos([[0, 1]], [[0]]),
+                                               q_function="hard"),
+     [r"q_function", r"'soft' or 'optimal'", r"'hard'"]),
+    ("simulate-beyond-horizon", lambda: bi.simulate(_mdp(horizon=3), [1.0, 0.0], episodes=2,
+                                                    length=4),
      [r"simulate", r"length 4", r"horizon 3"]),
 ]
 

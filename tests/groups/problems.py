@@ -21,7 +21,7 @@ def labelled_demos(mdp, truths: dict, episodes: int, length: int, seed: int):
                             seed=seed + d)
         eps += list(demos.episodes)
         names += [name] * demos.n_episodes
-    return bi.Demonstrations(eps, names)
+    return bi.Demonstrations(eps, demonstrators=names)
 
 
 @cache
@@ -35,4 +35,5 @@ def three_demonstrators(gradient_rtol: float = 1e-8) -> bi.BoltzmannLikelihood:
 def fresh(lik: bi.BoltzmannLikelihood, demos=None) -> bi.BoltzmannLikelihood:
     """A cold copy (own warm starts), optionally with other demonstrations."""
     return bi.BoltzmannLikelihood(lik.mdp, lik.demos if demos is None else demos,
-                                  lik.rationality, lik.q, lik.tol, lik.gradient_rtol)
+                                  rationality=lik.rationality, q_function=lik.q_function,
+                                  tol=lik.tol, gradient_rtol=lik.gradient_rtol)

@@ -1,7 +1,7 @@
 """The evidence model: sums of terms, their warm starts, and its refusals.
 
 Outside reference: the log-likelihood of independent episodes is the sum of the episodes'
-log-likelihoods (the demonstrator model's product form, DEVELOPERS.md "Likelihood"), so the
+log-likelihoods (the demonstrator model's product form, docs/likelihood.md), so the
 demonstrators' terms at one shared weight vector must add up to the one-term likelihood of
 all episodes, to the solver's documented accuracy 2 * n_steps * tol per solve.
 """
@@ -99,22 +99,23 @@ def test_demonstrator_names_are_validated(labels):
     episodes = [(np.array([0, 1]), np.array([0]))] * len(labels)
     ok = all(isinstance(x, str) and x.strip() for x in labels)
     if ok:
-        demos = bi.Demonstrations(episodes, labels)
+        demos = bi.Demonstrations(episodes, demonstrators=labels)
         assert demos.demonstrators == tuple(x.strip() for x in labels)
         assert sum(len(v) for v in demos.groups().values()) == len(labels)
     else:
         with pytest.raises(bi.InputError, match="episode"):
-            bi.Demonstrations(episodes, labels)
+            bi.Demonstrations(episodes, demonstrators=labels)
     with pytest.raises(bi.InputError, match="names for"):
-        bi.Demonstrations(episodes, ["a"] * (len(labels) + 1))
+        bi.Demonstrations(episodes, demonstrators=["a"] * (len(labels) + 1))
 
 
 def test_per_demonstrator_likelihoods_keep_every_setting():
     from bayesirl.evidence.groups import likelihood_settings, split_likelihood
 
     lik = bi.BoltzmannLikelihood(three_demonstrators().mdp, three_demonstrators().demos,
-                                 rationality=1.7, q="optimal", tol=1e-9, gradient_rtol=1e-7)
+                                 rationality=1.7, q_function="optimal", tol=1e-9,
+                                 gradient_rtol=1e-7)
     want = likelihood_settings(lik)
-    assert {"rationality", "q", "tol", "gradient_rtol"} <= set(want)
+    assert {"rationality", "q_function", "tol", "gradient_rtol"} <= set(want)
     for part in split_likelihood(lik):
         assert likelihood_settings(part) == want

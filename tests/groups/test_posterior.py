@@ -14,7 +14,9 @@ import pytest
 from posterior.problems import PRIOR
 
 import bayesirl as bi
-from bayesirl.posterior import checkpoint, storage
+from bayesirl.execution import checkpoint
+from bayesirl.execution.backend import Processes
+from bayesirl.posterior import storage
 from bayesirl.posterior.group_summary import (
     demonstrator_summary,
     heterogeneity,
@@ -26,7 +28,7 @@ from bayesirl.posterior.groups import GroupModel
 
 from .problems import fresh, three_demonstrators
 
-RUN = dict(chains=2, draws=60, warmup=60, seed=3, progress=False, processes=1)
+RUN = dict(chains=2, draws=60, warmup=60, seed=3, progress=False, backend=Processes(1))
 
 
 @cache
@@ -45,7 +47,7 @@ def test_draws_are_the_models_transform_of_theta(pooling):
     else:  # no population: the headline is the plain mean of the three
         assert "spread" not in g
         assert np.allclose(p.weights, g["demonstrator_weights"].mean(axis=2))
-    names = p.param_names()
+    names = p.param_names
     post = p.to_arviz().posterior
     sizes = sum(post[v].size for v in post.data_vars) // (2 * 60)
     assert len(names) == len(p.diagnostics.rhat) == sizes

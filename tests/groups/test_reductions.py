@@ -23,13 +23,14 @@ from posterior.problems import PRIOR, two_feature_likelihood
 from scipy import integrate, stats
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import PosteriorModel
 from bayesirl.posterior.groups import Pooling, make_model
 
 from .problems import fresh, three_demonstrators
 
 SPREAD = 1.0
-RUN = dict(chains=4, draws=500, warmup=300, progress=False, processes=1)
+RUN = dict(chains=4, draws=500, warmup=300, progress=False, backend=Processes(1))
 
 
 def _pooled_and_zero_spread(spread):
@@ -100,7 +101,7 @@ def _reweighted(draws: np.ndarray, s0: float) -> list[tuple[float, float]]:
 @pytest.fixture(scope="module")
 def one_demonstrator():
     lik = two_feature_likelihood()
-    solo = bi.Demonstrations(lik.demos.episodes, ["solo"] * lik.demos.n_episodes)
+    solo = bi.Demonstrations(lik.demos.episodes, demonstrators=["solo"] * lik.demos.n_episodes)
     pooled = bi.sample(fresh(lik), PRIOR, seed=21, **RUN)
     partial = bi.sample(fresh(lik, solo), PRIOR, seed=22,
                         pooling=Pooling("partial", bi.HalfNormal(SPREAD)), **RUN)

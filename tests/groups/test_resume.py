@@ -15,12 +15,13 @@ import pytest
 from resume.test_warm_starts import sparse_likelihood
 
 import bayesirl as bi
-from bayesirl.posterior import chains
-from bayesirl.posterior.interrupt import StopHook
+from bayesirl.execution import chains
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.interrupt import StopHook
 
 from .problems import labelled_demos
 
-RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, processes=1,
+RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, backend=Processes(1),
            pooling="partial")
 PRIOR = bi.Normal(0.0, 2.0)
 

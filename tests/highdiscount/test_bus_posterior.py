@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 from bayesirl import BoltzmannLikelihood, sample, simulate
+from bayesirl.execution.backend import Processes
 from tests.harness import mean_mcse
 
 from . import bus
@@ -26,7 +27,7 @@ def _check(discount, chains, draws, warmup, seed, grid_points, dense_mass=False)
                      seed=20261203, start=0)
     lik = BoltzmannLikelihood(bus.bus_mdp(discount), demos)
     post = sample(lik, chains=chains, draws=draws, warmup=warmup, seed=seed, progress=False,
-                  processes=min(chains, 2), dense_mass=dense_mass)
+                  backend=Processes(min(chains, 2)), dense_mass=dense_mass)
     exact = BoltzmannLikelihood(bus.bus_mdp(discount), demos, tol=0.0)
 
     def log_post(theta):

@@ -118,7 +118,7 @@ def test_a_solver_that_cannot_converge_still_raises(data):
 def test_the_optimal_q_model_also_solves_everywhere(data, discount):
     # Boltzmann in the optimal Q: policy iteration plus an adjoint with a deterministic
     # policy, whose unpreconditioned GMRES stalled at 0.9999 (15 of 50 points failed).
-    lik = BoltzmannLikelihood(bus.bus_mdp(discount), data, q="optimal")
+    lik = BoltzmannLikelihood(bus.bus_mdp(discount), data, q_function="optimal")
     rng = np.random.default_rng(8)
     for theta in rng.uniform(-60, 60, size=(200, 2)):
         value, grad = lik.value_and_grad(theta)

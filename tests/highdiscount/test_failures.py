@@ -8,6 +8,7 @@ import pytest
 
 from bayesirl import BoltzmannLikelihood, SolverError, sample, simulate
 from bayesirl.cli import main
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior.diagnostics import _stalled
 from bayesirl.sampler.adaptation import STEP_MIN, find_reasonable_step_size
 
@@ -23,13 +24,13 @@ def test_no_start_because_the_solver_fails_is_a_solver_error(demos):
     # One Newton step never converges at 0.9999: every start fails in the solver.
     lik = BoltzmannLikelihood(bus.bus_mdp(0.9999), demos, max_newton_steps=1)
     with pytest.raises(SolverError, match="max_newton_steps"):
-        sample(lik, chains=1, draws=5, warmup=5, progress=False, processes=1)
+        sample(lik, chains=1, draws=5, warmup=5, progress=False, backend=Processes(1))
 
 
 def test_the_same_data_with_enough_steps_samples(demos):
     # Negative control for the test above: only the cap made it fail.
     lik = BoltzmannLikelihood(bus.bus_mdp(0.9999), demos)
-    post = sample(lik, chains=1, draws=5, warmup=5, progress=False, processes=1)
+    post = sample(lik, chains=1, draws=5, warmup=5, progress=False, backend=Processes(1))
     assert post.n_draws == 5 and sum(post.settings["solver_failures"]) == 0
 
 
@@ -92,7 +93,7 @@ def test_failures_inside_trajectories_are_rejections_not_crashes(demos):
     # The edge sits inside the posterior's bulk (theta1 is about 2.6 +- 1 here), so many
     # trajectories cross it: each crossing is a rejected, counted proposal; chains go on.
     lik = _FailsBeyond(BoltzmannLikelihood(bus.bus_mdp(0.9999), demos), edge=2.0)
-    post = sample(lik, chains=2, draws=100, warmup=100, progress=False, processes=1)
+    post = sample(lik, chains=2, draws=100, warmup=100, progress=False, backend=Processes(1))
     assert post.n_draws == 100
     assert sum(post.settings["solver_failures"]) > 0
     assert post.diagnostics.divergences > 0  # the failures show as divergences

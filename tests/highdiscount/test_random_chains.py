@@ -11,6 +11,7 @@ import numpy as np
 import pytest
 
 from bayesirl import BoltzmannLikelihood, TabularMDP, sample, simulate
+from bayesirl.execution.backend import Processes
 
 TRUTH = np.array([1.0, -0.5, 0.8])
 
@@ -35,7 +36,7 @@ def _check(discount, seed, **settings):
 
 @pytest.mark.parametrize("discount", [0.99, 0.999])
 def test_no_frozen_chain(discount):
-    _check(discount, 0, draws=400, warmup=400, processes=2)
+    _check(discount, 0, draws=400, warmup=400, backend=Processes(2))
 
 
 @pytest.mark.slow

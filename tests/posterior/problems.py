@@ -12,6 +12,7 @@ from functools import cache
 import numpy as np
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import LikelihoodValue
 from bayesirl.posterior import PosteriorModel
 
@@ -67,21 +68,23 @@ def two_feature_model() -> PosteriorModel:
 
 
 def _copy(lik: bi.BoltzmannLikelihood) -> bi.BoltzmannLikelihood:
-    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                                  q_function=lik.q_function, tol=lik.tol)
 
 
 @cache
 def nuts_two_feature(seed: int = 10, draws: int = 1000, warmup: int = 500) -> bi.Posterior:
     """bayesirl.sample (NUTS) on the two-feature problem, 4 chains, in this process."""
     return bi.sample(two_feature_likelihood(), PRIOR, chains=4, draws=draws, warmup=warmup,
-                     seed=seed, progress=False, processes=1)
+                     seed=seed, progress=False, backend=Processes(1))
 
 
 @cache
 def nuts_pinned(seed: int = 20, draws: int = 1000, warmup: int = 500) -> bi.Posterior:
     """bayesirl.sample (NUTS) on the sampled-rationality problem, 4 chains."""
     return bi.sample(three_feature_likelihood(), PRIOR, chains=4, draws=draws, warmup=warmup,
-                     seed=seed, progress=False, processes=1, rationality=RATIONALITY, pin=PIN)
+                     seed=seed, progress=False, backend=Processes(1), rationality=RATIONALITY,
+                     pin=PIN)
 
 
 class WalledLikelihood:
@@ -95,7 +98,7 @@ class WalledLikelihood:
     def __init__(self, inner: bi.BoltzmannLikelihood, cut: float) -> None:
         self.inner, self.cut = inner, float(cut)
         self.mdp, self.demos = inner.mdp, inner.demos
-        self.rationality, self.q, self.tol = inner.rationality, inner.q, inner.tol
+        self.rationality, self.q_function, self.tol = inner.rationality, inner.q_function, inner.tol
 
     def evaluate(self, weights, rationality=None) -> LikelihoodValue:
         value = self.inner.evaluate(weights, rationality)

@@ -13,6 +13,7 @@ import pytest
 import scipy.sparse as sp
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from posterior.problems import PRIOR, small_mdp, two_feature_likelihood
 
 SAMPLE = [
@@ -35,8 +36,8 @@ SAMPLE = [
     ("seed-fraction", {"seed": 1.5}, ["seed: expected an integer >= 0; got 1.5"]),
     ("seed-negative", {"seed": -3}, ["seed: expected an integer >= 0; got -3"]),
     ("seed-string", {"seed": "7"}, ["seed: expected an integer >= 0; got '7'"]),
-    ("processes-zero", {"processes": 0}, ["processes: expected an integer >= 1; got 0"]),
-    ("processes-fraction", {"processes": 1.5}, ["processes: expected an integer >= 1"]),
+    ("backend-number", {"backend": 2}, ["backend: expected bayesirl.Serial()", "int 2"]),
+    ("backend-string", {"backend": "local"}, ["backend: expected", "str 'local'"]),
     ("method-unknown", {"method": "gibbs"}, ["method: expected 'nuts' or 'random-walk'"]),
     ("max-depth-zero", {"max_depth": 0}, ["max_depth: expected an integer >= 1; got 0"]),
     ("target-accept-one", {"target_accept": 1.0}, ["target_accept: expected a number in (0, 1)"]),
@@ -49,17 +50,23 @@ SAMPLE = [
 def test_sample_refuses_bad_arguments(case):
     _, kwargs, fragments = case
     kwargs = {"likelihood": two_feature_likelihood(), "prior": PRIOR, "draws": 10,
-              "warmup": 10, "chains": 1, "progress": False, "processes": 1, **kwargs}
+              "warmup": 10, "chains": 1, "progress": False, "backend": Processes(1), **kwargs}
     with pytest.raises(bi.InputError) as err:
         bi.sample(**kwargs)
     for fragment in fragments:
         assert fragment in str(err.value), (fragment, str(err.value))
 
 
+@pytest.mark.parametrize("n", [0, 1.5, True, "2"])
+def test_processes_refuses_a_bad_count(n):
+    with pytest.raises(bi.InputError, match="Processes: n must be an integer >= 1 or None"):
+        Processes(n)
+
+
 def test_whole_floats_are_still_accepted_by_sample():
     # Negative control for the cases above: 1e1 draws is a whole number and samples.
     post = bi.sample(two_feature_likelihood(), PRIOR, draws=1e1, warmup=10.0, chains=1,
-                     seed=np.int64(3), progress=False, processes=1)
+                     seed=np.int64(3), progress=False, backend=Processes(1))
     assert post.n_draws == 10
 
 

@@ -31,6 +31,7 @@ from numpy.polynomial.hermite_e import hermegauss
 from statsmodels.discrete.conditional_models import ConditionalLogit
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 
 N_STATES, N_ACTIONS = 200, 4
 PRIOR_SCALE = 10.0
@@ -97,7 +98,7 @@ def _setting(n_features: int, case: str):
 def _run(n_features, case, draws, warmup, seed):
     lik, logit, fit = _setting(n_features, case)
     post = bi.sample(lik, bi.Normal(0.0, PRIOR_SCALE), chains=4, draws=draws, warmup=warmup,
-                     seed=seed, progress=False, processes=1)
+                     seed=seed, progress=False, backend=Processes(1))
     params, bse = np.asarray(fit.params), np.asarray(fit.bse)
     weights = post.weights
 

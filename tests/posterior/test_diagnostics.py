@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import Posterior
 from bayesirl.posterior import diagnostics as diag
 
@@ -67,7 +68,7 @@ def test_chains_stuck_in_different_places_warn_about_rhat():
 def test_too_short_run_warns_about_ess(capsys):
     # 4 chains x 25 draws: ESS <= N log10 N = 200 < 400 whatever the chains do.
     post = bi.sample(two_feature_likelihood(), PRIOR, chains=4, draws=25, warmup=25, seed=2,
-                     progress=False, processes=1)
+                     progress=False, backend=Processes(1))
     d = post.diagnostics
     assert np.all(d.ess_bulk < diag.ESS_MIN)
     [msg] = [w for w in d.warnings if "ESS" in w]
@@ -81,7 +82,7 @@ def test_a_wall_inside_the_bulk_forces_divergences():
     # trajectories that cross it diverge (Betancourt 2017, sec. 6.2).
     lik = WalledLikelihood(two_feature_likelihood(), cut=0.9)
     post = bi.sample(lik, PRIOR, chains=2, draws=200, warmup=200, seed=1, progress=False,
-                     processes=1)
+                     backend=Processes(1))
     d = post.diagnostics
     assert d.divergences == int(post.stats["diverging"].sum()) > 0
     assert np.all(post.weights[..., 0] <= 0.9)  # no draw beyond the wall
@@ -128,7 +129,7 @@ def test_healthy_ebfmi_matches_betancourts_estimator():
 
 def test_random_walk_has_no_energy_and_no_ebfmi_warning():
     post = bi.sample(two_feature_likelihood(), PRIOR, chains=4, draws=1500, warmup=500,
-                     seed=4, method="random-walk", progress=False, processes=1)
+                     seed=4, method="random-walk", progress=False, backend=Processes(1))
     d = post.diagnostics
     assert np.all(np.isnan(d.ebfmi)) and not any("E-BFMI" in w for w in d.warnings)
     assert d.divergences == 0

@@ -1,7 +1,7 @@
 """A loose adjoint tolerance changes NUTS's efficiency, not its target.
 
 A leapfrog step is volume-preserving and reversible for any deterministic vector field, and the
-multinomial weights use the log-likelihood, whose tolerance is separate (DEVELOPERS.md,
+multinomial weights use the log-likelihood, whose tolerance is separate (docs/solver.md,
 "Adjoint tolerance"). So the posterior sampled with a gradient solved to a relative 1e-4 --
 far looser than the default 1e-8 -- must agree with one sampled with a 1e-12 gradient: means,
 sds and 5/50/95% quantiles within combined Monte-Carlo error (harness.check_agreement,

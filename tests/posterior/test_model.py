@@ -102,7 +102,7 @@ def _reference_logdensity(lik, kwargs, theta) -> tuple[float, np.ndarray, float]
         r = kwargs["rationality"]
         # density of log(beta): lognormal density of beta times d beta / d log beta = beta.
         lp += stats.lognorm.logpdf(beta, s=r.sigma, scale=np.exp(r.mu)) + np.log(beta)
-    cold = bi.BoltzmannLikelihood(lik.mdp, lik.demos, lik.rationality)
+    cold = bi.BoltzmannLikelihood(lik.mdp, lik.demos, rationality=lik.rationality)
     return float(cold.evaluate(w, beta).loglik + lp), w, beta
 
 

@@ -16,8 +16,9 @@ from types import SimpleNamespace
 import pytest
 
 import bayesirl as bi
-from bayesirl.posterior import progress
-from bayesirl.posterior.progress import ChainProgress
+from bayesirl.execution import progress
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.progress import ChainProgress
 
 from .problems import PRIOR, two_feature_likelihood
 
@@ -126,7 +127,7 @@ def test_sample_draws_one_line_per_chain_on_a_terminal(monkeypatch, processes):
     tty = FakeTTY()
     monkeypatch.setattr(sys, "stderr", tty)
     bi.sample(two_feature_likelihood(), PRIOR, chains=2, draws=20, warmup=20, seed=1,
-              processes=processes)
+              backend=Processes(processes))
     bars = [line for line in tty.getvalue().splitlines() if "\x1b[2Kchain " in line]
     frames = _frames("\n".join(bars), 2)
     final = [LINE.match(line) for line in frames[-1]]
@@ -136,6 +137,6 @@ def test_sample_draws_one_line_per_chain_on_a_terminal(monkeypatch, processes):
 
 def test_sample_writes_no_bar_when_stderr_is_not_a_terminal(capsys):
     bi.sample(two_feature_likelihood(), PRIOR, chains=2, draws=20, warmup=20, seed=1,
-              processes=1)
+              backend=Processes(1))
     err = capsys.readouterr().err  # pytest's capture is not a terminal
     assert "chain 0" not in err and "\x1b[" not in err

@@ -17,6 +17,7 @@ import pytest
 from harness import check_agreement, sample_check
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 
 from .problems import PRIOR, nuts_two_feature, two_feature_likelihood
 
@@ -25,7 +26,7 @@ from .problems import PRIOR, nuts_two_feature, two_feature_likelihood
 def _random_walk(seed: int = 11, draws: int = 4000, warmup: int = 1000, prior=PRIOR):
     # ~4 times NUTS's draws: the random walk's ESS per draw is ~0.1 here against NUTS's ~0.6.
     post = bi.sample(two_feature_likelihood(), prior, chains=4, draws=draws, warmup=warmup,
-                     seed=seed, method="random-walk", progress=False, processes=1)
+                     seed=seed, method="random-walk", progress=False, backend=Processes(1))
     assert post.settings["method"] == "random-walk"
     return post
 

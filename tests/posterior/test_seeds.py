@@ -13,6 +13,7 @@ from functools import cache
 import numpy as np
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 
 from .problems import PRIOR, two_feature_likelihood
 
@@ -22,7 +23,7 @@ RUN = dict(draws=60, warmup=60, progress=False)
 @cache
 def _run(seed: int, processes: int, chains: int = 2, method: str = "nuts"):
     return bi.sample(two_feature_likelihood(), PRIOR, chains=chains, seed=seed,
-                     processes=processes, method=method, **RUN)
+                     backend=Processes(processes), method=method, **RUN)
 
 
 def _assert_identical(a: bi.Posterior, b: bi.Posterior, chains=slice(None)) -> None:
@@ -56,5 +57,6 @@ def test_different_seeds_and_different_chains_differ():
 
 def test_rerun_in_the_same_process_is_identical():
     # No hidden state (warm starts, caches) leaks from one sample() call into the next.
-    again = bi.sample(two_feature_likelihood(), PRIOR, chains=2, seed=5, processes=1, **RUN)
+    again = bi.sample(two_feature_likelihood(), PRIOR, chains=2, seed=5, backend=Processes(1),
+                      **RUN)
     _assert_identical(again, _run(5, processes=1))

@@ -18,6 +18,7 @@ import pytest
 
 import bayesirl as bi
 from bayesirl import arviz_compat
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import Posterior, PosteriorModel
 
 from .problems import small_mdp
@@ -60,7 +61,7 @@ def _case_finite_horizon():
 def _case_optimal_q():
     mdp = small_mdp(10, 2, n_states=5)
     demos = _ragged_demos(mdp, np.array([1.0, -1.0]), seed=50)
-    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=2.0, q="optimal")
+    lik = bi.BoltzmannLikelihood(mdp, demos, rationality=2.0, q_function="optimal")
     return lik, dict(prior=bi.Normal(0.0, 3.0), rationality=2.5)
 
 
@@ -71,7 +72,8 @@ CASES = {"sampled-beta": _case_sampled_beta, "finite-horizon": _case_finite_hori
 @cache
 def _posterior(case: str) -> bi.Posterior:
     lik, kwargs = CASES[case]()
-    return bi.sample(lik, chains=2, draws=40, warmup=40, seed=3, progress=False, processes=1,
+    return bi.sample(lik, chains=2, draws=40, warmup=40, seed=3, progress=False,
+                     backend=Processes(1),
                      **kwargs)
 
 
@@ -152,8 +154,8 @@ def test_load_restores_draws_problem_and_model(case, tmp_path):
     assert lik1.demos.n_episodes == lik0.demos.n_episodes
     for (s0, a0), (s1, a1) in zip(lik0.demos.episodes, lik1.demos.episodes, strict=True):
         assert np.array_equal(s0, s1) and np.array_equal(a0, a1)
-    assert (lik1.q, lik1.tol, lik1.gradient_rtol, lik1.rationality) == \
-        (lik0.q, lik0.tol, lik0.gradient_rtol, lik0.rationality)
+    assert (lik1.q_function, lik1.tol, lik1.gradient_rtol, lik1.rationality) == \
+        (lik0.q_function, lik0.tol, lik0.gradient_rtol, lik0.rationality)
 
     assert _same_prior(back.model.prior, post.model.prior)
     if post.model.rationality_prior is None:
@@ -164,8 +166,9 @@ def test_load_restores_draws_problem_and_model(case, tmp_path):
     assert back.model.pin == post.model.pin
     # The restored model is the same function of theta (cold solves on both sides).
     theta = np.linspace(-0.4, 0.6, post.model.dim)
-    fresh = PosteriorModel(bi.BoltzmannLikelihood(m0, lik0.demos, lik0.rationality, lik0.q,
-                                                  lik0.tol), post.model.prior,
+    fresh = PosteriorModel(bi.BoltzmannLikelihood(m0, lik0.demos, rationality=lik0.rationality,
+                                                  q_function=lik0.q_function,
+                                                  tol=lik0.tol), post.model.prior,
                            post.model.rationality_prior or post.model.fixed_rationality,
                            post.model.pin or None)
     v0, g0 = fresh(theta)

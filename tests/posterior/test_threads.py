@@ -14,6 +14,7 @@ import pytest
 from threadpoolctl import threadpool_info
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 
 from .problems import PRIOR, two_feature_likelihood
 
@@ -33,7 +34,8 @@ class BlasCheckingLikelihood(bi.BoltzmannLikelihood):
 
 def _checking_copy() -> BlasCheckingLikelihood:
     lik = two_feature_likelihood()
-    return BlasCheckingLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, lik.tol)
+    return BlasCheckingLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                    q_function=lik.q_function, tol=lik.tol)
 
 
 @pytest.fixture
@@ -48,7 +50,7 @@ def test_chains_see_one_blas_thread_and_the_caller_keeps_its_own(several_blas_th
                                                                  processes):
     before = _blas_threads()
     post = bi.sample(_checking_copy(), PRIOR, chains=2, draws=20, warmup=20, seed=3,
-                     processes=processes, progress=False)
+                     backend=Processes(processes), progress=False)
     assert np.all(np.isfinite(post.weights))
     assert _blas_threads() == before  # the limit is undone in the main process
 

@@ -46,7 +46,7 @@ def test_posterior_is_normal_up_to_predicted_first_corrections():
     trans = rng.dirichlet(np.full(N_STATES, 0.5), size=(N_STATES, N_ACTIONS))
     phi = rng.normal(size=(N_STATES, N_ACTIONS, 1))
     mdp = TabularMDP(trans, phi, discount=DISCOUNT)
-    demos = simulate(mdp, np.array([0.7]), N_EPISODES, LENGTH, seed=3)
+    demos = simulate(mdp, np.array([0.7]), episodes=N_EPISODES, length=LENGTH, seed=3)
     lik = BoltzmannLikelihood(mdp, demos)
 
     def grad(w):

@@ -95,7 +95,7 @@ def test_optimal_q_matches_own_policy_iteration():
     # The q="optimal" likelihood is sum_t log softmax(beta Q*)(a_t | s_t) with that Q*.
     beta = 2.0
     demos = simulate(mdp, w, episodes=10, length=15, rationality=beta, seed=3)
-    lik = BoltzmannLikelihood(mdp, demos, rationality=beta, q="optimal")
+    lik = BoltzmannLikelihood(mdp, demos, rationality=beta, q_function="optimal")
     st = demos.steps
     expected = log_softmax(beta * q_star, axis=1)[st.states, st.actions].sum()
     # 150 terms, each off by <= 2 beta |dQ*| ~ 4e-13 plus rounding: 1e-10 absolute is ~100x.

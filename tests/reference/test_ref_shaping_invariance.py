@@ -95,9 +95,10 @@ def test_loglik_and_gradient_invariant_discounted(transform, q):
     else:
         column, coef = np.ones((N_STATES, N_ACTIONS)), -1.9
     mdp2 = _augmented(trans, phi, column, discount=DISCOUNT)
-    demos = simulate(mdp, w, N_EPISODES, LENGTH, rationality=BETA, seed=4)
-    lik = BoltzmannLikelihood(mdp, demos, rationality=BETA, q=q, gradient_rtol=GRADIENT_RTOL)
-    lik2 = BoltzmannLikelihood(mdp2, demos, rationality=BETA, q=q,
+    demos = simulate(mdp, w, episodes=N_EPISODES, length=LENGTH, rationality=BETA, seed=4)
+    lik = BoltzmannLikelihood(mdp, demos, rationality=BETA, q_function=q,
+                              gradient_rtol=GRADIENT_RTOL)
+    lik2 = BoltzmannLikelihood(mdp2, demos, rationality=BETA, q_function=q,
                                gradient_rtol=GRADIENT_RTOL)
     base = lik.evaluate(w)
     shaped = lik2.evaluate(np.append(w, coef))
@@ -142,7 +143,7 @@ def test_constant_invariant_finite_horizon(kind, discount):
     w2 = np.append(w, 3.1)
     np.testing.assert_allclose(mdp2.soft_policy(w2, BETA), mdp.soft_policy(w, BETA),
                                rtol=0, atol=1e-11)
-    demos = simulate(mdp, w, 10, horizon, rationality=BETA, seed=8)
+    demos = simulate(mdp, w, episodes=10, length=horizon, rationality=BETA, seed=8)
     base = BoltzmannLikelihood(mdp, demos, rationality=BETA).evaluate(w)
     shifted = BoltzmannLikelihood(mdp2, demos, rationality=BETA).evaluate(w2)
     assert abs(shifted.loglik - base.loglik) <= 1e-9

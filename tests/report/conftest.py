@@ -48,7 +48,7 @@ def force_diagnostics(report, passing: bool):
 def park_report():
     """Ambiguity report on the park grid (4 weights, 40 episodes)."""
     mdp = park_mdp()
-    demos = bi.simulate(mdp, PARK_WEIGHTS, 40, 15, seed=1, start=0)
+    demos = bi.simulate(mdp, PARK_WEIGHTS, episodes=40, length=15, seed=1, start=0)
     post = _sample(bi.BoltzmannLikelihood(mdp, demos))
     return ambiguity(post, states=[0, 10], truth=PARK_WEIGHTS)
 

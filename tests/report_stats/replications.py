@@ -16,6 +16,7 @@ from multiprocessing import get_context
 import numpy as np
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.report.derived import policy_risk
 from bayesirl.report.weights import weights_table
 
@@ -24,7 +25,7 @@ from .problems import SMALL_PRIOR, grid_transitions, small_grid
 
 N_REPS = 200
 EPISODES, LENGTH = 5, 8  # 40 steps: the prior still matters (mean contraction ~0.8)
-FIT = {"chains": 2, "draws": 500, "warmup": 300, "progress": False, "processes": 1}
+FIT = {"chains": 2, "draws": 500, "warmup": 300, "progress": False, "backend": Processes(1)}
 LEVELS = (0.5, 0.9)
 ALPHAS = (0.5, 0.95)
 

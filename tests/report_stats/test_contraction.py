@@ -23,6 +23,7 @@ import pytest
 from scipy import stats
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.report.weights import directions, weights_table
 
 from .problems import SMALL_NAMES, SMALL_PRIOR, small_grid
@@ -33,7 +34,7 @@ SEEDS = range(8)
 TRUTH = np.array([0.8, -0.6, 0.4, 0.0])  # a, b, c, const
 # Short chains: the contraction's own Monte-Carlo error (relative sd of a variance
 # sqrt(2 / ESS) ~ 0.07 of Var_post) is part of the seed-to-seed spread the t-test uses.
-FIT = {"chains": 2, "draws": 300, "warmup": 200, "progress": False, "processes": 1}
+FIT = {"chains": 2, "draws": 300, "warmup": 200, "progress": False, "backend": Processes(1)}
 FAMILY_ALPHA = 0.01
 N_TESTS = len(SMALL_NAMES) * (len(SIZES) - 1)
 

@@ -28,7 +28,8 @@ def _mean(posterior) -> np.ndarray:
 
 def _fresh(posterior) -> bi.BoltzmannLikelihood:
     lik = posterior.model.likelihood
-    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, lik.rationality, lik.q, tol=LIK_TOL)
+    return bi.BoltzmannLikelihood(lik.mdp, lik.demos, rationality=lik.rationality,
+                                  q_function=lik.q_function, tol=LIK_TOL)
 
 
 def _value_information(lik, w, h):

@@ -15,6 +15,7 @@ import pytest
 
 import bayesirl as bi
 from bayesirl import files as report_files
+from bayesirl.execution.backend import Processes
 from bayesirl.report import ambiguity
 from bayesirl.report.structural import describe
 from bayesirl.report.verdicts import WORDS
@@ -152,7 +153,7 @@ def _tiny_posterior(**kwargs) -> bi.Posterior:
     mdp = bi.TabularMDP(trans, rng.normal(size=(4, 2, 2)), discount=0.8, feature_names=["x", "y"])
     demos = bi.simulate(mdp, [0.8, -0.5], episodes=8, length=6, seed=1)
     return bi.sample(bi.BoltzmannLikelihood(mdp, demos), bi.Normal(0, 2), chains=2, draws=200,
-                     warmup=200, seed=0, progress=False, processes=1, **kwargs)
+                     warmup=200, seed=0, progress=False, backend=Processes(1), **kwargs)
 
 
 # Was a bug (NaN written into the JSON); non-finite numbers are now written as null.

@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.report.derived import policy_risk
 
 from . import evd
@@ -39,7 +40,7 @@ def tiny(kind: str):
     # Few demonstrations: the posterior is wide, so many draws disagree with pi_hat.
     demos = bi.simulate(mdp, [0.6, -0.4], episodes=3, length=3, seed=2)
     post = bi.sample(bi.BoltzmannLikelihood(mdp, demos), bi.Normal(0, 1), chains=1,
-                     draws=DRAWS, warmup=100, seed=5, progress=False, processes=1)
+                     draws=DRAWS, warmup=100, seed=5, progress=False, backend=Processes(1))
     return p, phi, mdp, demos, post
 
 

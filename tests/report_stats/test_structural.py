@@ -132,7 +132,7 @@ def test_findings_match_the_construction(name):
 @pytest.mark.parametrize("name", CASES)
 def test_flagged_directions_leave_the_likelihood_unchanged(name, q):
     mdp, demos, w, _ = case(name)
-    lik = bi.BoltzmannLikelihood(mdp, demos, q=q, tol=LIK_TOL)
+    lik = bi.BoltzmannLikelihood(mdp, demos, q_function=q, tol=LIK_TOL)
     assert np.abs(mdp.solve(w).values).max() < 700  # keeps 64 eps |V| below LIK_TOL
     base = lik.value(w)
     found = structural.findings(mdp, demos)
@@ -150,14 +150,14 @@ def test_flagged_directions_leave_the_likelihood_unchanged(name, q):
 def test_finite_horizon_shaping_really_changes_the_likelihood(q):
     # Why "shaping" must not be flagged with a horizon: the likelihood moves along it.
     mdp, demos, w, _ = case("shaping-finite")
-    lik = bi.BoltzmannLikelihood(mdp, demos, q=q, tol=LIK_TOL)
+    lik = bi.BoltzmannLikelihood(mdp, demos, q_function=q, tol=LIK_TOL)
     shape = np.eye(mdp.n_features)[mdp.feature_names.index("shape")]
     base = lik.value(w)
     for t in STEPS_ALONG:
         assert abs(lik.value(w + t * shape) - base) > MOVES_BY
     # ...while the same column in the discounted model is invariant (the discounted case).
     mdp_d, demos_d, w_d, _ = case("shaping")
-    lik_d = bi.BoltzmannLikelihood(mdp_d, demos_d, q=q, tol=LIK_TOL)
+    lik_d = bi.BoltzmannLikelihood(mdp_d, demos_d, q_function=q, tol=LIK_TOL)
     e = np.eye(3)[2]
     assert abs(lik_d.value(w_d + 3.0 * e) - lik_d.value(w_d)) <= LOGLIK_ATOL
 

@@ -19,6 +19,7 @@ import numpy as np
 import pytest
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.report import ambiguity, combinations, verdicts
 from bayesirl.report.weights import groups, mark_groups, weights_table
 from bayesirl.scenarios import PARK_WEIGHTS, park_mdp
@@ -118,7 +119,7 @@ def test_wide_prior_and_few_data_determine_nothing():
     demos = bi.simulate(mdp, PARK_WEIGHTS, episodes=40, length=15, seed=1, start=0)
     few = bi.Demonstrations(demos.episodes[:2])
     post = bi.sample(bi.BoltzmannLikelihood(mdp, few), chains=2, draws=500, warmup=300,
-                     seed=0, progress=False, processes=1)
+                     seed=0, progress=False, backend=Processes(1))
     report = ambiguity(post)
     assert all(r["verdict"] != verdicts.DETERMINED for r in report.weights), report.weights
     assert "the demonstrations determine" not in report.verdict

@@ -9,8 +9,9 @@ import pytest
 from posterior.problems import PRIOR, two_feature_likelihood
 
 import bayesirl as bi
-from bayesirl.posterior import chains
-from bayesirl.posterior.interrupt import StopHook
+from bayesirl.execution import chains
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.interrupt import StopHook
 
 # 40 warmup iterations (Stan's 15/75/10 % windows: slow windows end at 34, so a metric
 # update and a step-size restart happen before the stops below) and 30 draws per chain.
@@ -20,7 +21,8 @@ RUN = dict(chains=2, draws=30, warmup=40, seed=4, progress=False)
 @cache
 def uninterrupted(method: str, processes: int) -> bi.Posterior:
     """The reference: the same run without checkpoint or stop."""
-    return bi.sample(two_feature_likelihood(), PRIOR, method=method, processes=processes, **RUN)
+    return bi.sample(two_feature_likelihood(), PRIOR, method=method,
+                     backend=Processes(processes), **RUN)
 
 
 def interrupt(monkeypatch, path, stop: StopHook, **kwargs) -> bi.Interrupted:
@@ -36,7 +38,8 @@ def interrupt(monkeypatch, path, stop: StopHook, **kwargs) -> bi.Interrupted:
 
 def sample(path, resume: bool = False, likelihood=None, **kwargs) -> bi.Posterior:
     """``bi.sample`` on the two-feature problem with RUN, overridable."""
-    args = {**RUN, "method": "nuts", "processes": 1, **kwargs}
+    # ``processes=n`` is this helper's shorthand for ``backend=Processes(n)`` (default 1).
+    args = {**RUN, "method": "nuts", "backend": Processes(kwargs.pop("processes", 1)), **kwargs}
     lik = two_feature_likelihood() if likelihood is None else likelihood
     return bi.sample(lik, args.pop("prior", PRIOR), checkpoint=path, resume=resume, **args)
 

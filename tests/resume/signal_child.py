@@ -16,7 +16,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # tests/, for the 
 from posterior.problems import PRIOR, two_feature_likelihood  # noqa: E402
 
 import bayesirl as bi  # noqa: E402
-from bayesirl.posterior import run  # noqa: E402
+from bayesirl.execution import run  # noqa: E402
+from bayesirl.execution.backend import Processes
 
 RUN = dict(chains=2, draws=300, warmup=200, seed=8, progress=False)
 
@@ -59,7 +60,7 @@ def main() -> None:
     run.CHECKPOINT_EVERY = 0.2  # the parent waits for the first write before signalling
     report = {"status": "finished"}
     try:
-        bi.sample(likelihood(0.001), PRIOR, processes=processes, checkpoint=path, **RUN)
+        bi.sample(likelihood(0.001), PRIOR, backend=Processes(processes), checkpoint=path, **RUN)
     except bi.Interrupted as exc:
         report = {"status": "interrupted", "caught_at": time.time(), "signal": exc.signal,
                   "checkpoint": str(exc.checkpoint), "complete": exc.posterior.complete,

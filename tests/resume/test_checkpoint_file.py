@@ -9,8 +9,8 @@ import pytest
 from posterior.problems import small_mdp, two_feature_likelihood
 
 import bayesirl as bi
-from bayesirl.posterior import checkpoint as ckpt
-from bayesirl.posterior.interrupt import StopHook
+from bayesirl.execution import checkpoint as ckpt
+from bayesirl.execution.interrupt import StopHook
 
 from .helpers import interrupt, sample
 
@@ -101,7 +101,7 @@ def test_failed_write_leaves_the_previous_checkpoint(saved, monkeypatch):
 def test_periodic_writes_during_a_run(tmp_path, monkeypatch):
     # With a zero interval every state report is written; the last write before the stop
     # is a valid checkpoint that already holds the draws so far.
-    from bayesirl.posterior import run
+    from bayesirl.execution import run
 
     monkeypatch.setattr(run, "CHECKPOINT_EVERY", 0.0)
     writes = []

@@ -10,8 +10,9 @@ import pytest
 from posterior.problems import PRIOR, WalledLikelihood, two_feature_likelihood
 
 import bayesirl as bi
-from bayesirl.posterior import interrupt
-from bayesirl.posterior.interrupt import Guarded, Stopper, StopRequested
+from bayesirl.execution import interrupt
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.interrupt import Guarded, Stopper, StopRequested
 
 
 def _deliver(signum: int) -> None:
@@ -57,5 +58,5 @@ def test_errors_in_chains_reach_the_caller(processes):
     start = time.monotonic()
     with pytest.raises(bi.InputError, match="no finite log-posterior"):
         bi.sample(hopeless, PRIOR, chains=2, draws=5, warmup=5, progress=False,
-                  processes=processes)
+                  backend=Processes(processes))
     assert time.monotonic() - start < 30  # and nothing hangs waiting for the workers

@@ -16,7 +16,8 @@ import numpy as np
 import pytest
 
 import bayesirl as bi
-from bayesirl.posterior.interrupt import StopHook
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.interrupt import StopHook
 
 from .helpers import RUN, assert_identical, interrupt, sample, uninterrupted
 
@@ -45,7 +46,7 @@ def test_resume_matches_uninterrupted_run(tmp_path, monkeypatch, method, process
     # The draws so far are the uninterrupted run's first draws of the chains kept.
     kept, n = partial.settings["chains_kept"], partial.n_draws
     assert np.array_equal(partial.weights, full.weights[kept, :n])
-    resumed = sample(path, resume=True, method=method, processes=processes)
+    resumed = sample(path, resume=True, method=method, backend=Processes(processes))
     assert resumed.complete
     assert_identical(resumed, full)
 

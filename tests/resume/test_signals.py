@@ -23,7 +23,8 @@ import pytest
 from posterior.problems import PRIOR
 
 import bayesirl as bi
-from bayesirl.posterior import checkpoint as ckpt
+from bayesirl.execution import checkpoint as ckpt
+from bayesirl.execution.backend import Processes
 
 from .signal_child import RUN, likelihood
 
@@ -34,7 +35,7 @@ STOP_WITHIN = 2.0  # seconds from the signal to Interrupted being raised
 
 @cache
 def _reference() -> bi.Posterior:
-    return bi.sample(likelihood(0.0), PRIOR, processes=2, **RUN)
+    return bi.sample(likelihood(0.0), PRIOR, backend=Processes(2), **RUN)
 
 
 def _progress(path: Path) -> int:
@@ -99,7 +100,7 @@ def test_real_signal_stops_cleanly_and_resumes_exactly(tmp_path, case):
     if after > RUN["warmup"]:
         assert n > 0
     assert np.array_equal(saved.weights, reference.weights[kept, :n])
-    resumed = bi.sample(likelihood(0.0), PRIOR, processes=processes, checkpoint=path,
+    resumed = bi.sample(likelihood(0.0), PRIOR, backend=Processes(processes), checkpoint=path,
                         resume=True, **RUN)
     assert np.array_equal(resumed.weights, reference.weights)
     for key in reference.stats:

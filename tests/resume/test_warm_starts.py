@@ -14,11 +14,12 @@ import pytest
 import scipy.sparse as sp
 
 import bayesirl as bi
-from bayesirl.posterior import chains
-from bayesirl.posterior.interrupt import StopHook
+from bayesirl.execution import chains
+from bayesirl.execution.backend import Processes
+from bayesirl.execution.interrupt import StopHook
 from bayesirl.solver.dynamics import DENSE_MAX_STATES
 
-RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, processes=1)
+RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, backend=Processes(1))
 PRIOR = bi.Normal(0.0, 2.0)
 
 

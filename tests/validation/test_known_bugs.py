@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 import bayesirl as bi
+from bayesirl.execution.backend import Processes
 from bayesirl.posterior import PosteriorModel
 from bayesirl.validation import GridSBC
 
@@ -42,5 +43,5 @@ def test_sample_with_sampled_rationality_survives_a_steep_start():
     lik = bi.BoltzmannLikelihood(UNKNOWN.mdp, demos)
     post = bi.sample(lik, bi.Normal(0.0, 1.0), chains=2, draws=300, warmup=300,
                      seed=int(sampler_seed.generate_state(1)[0]), progress=False,
-                     rationality=UNKNOWN.rationality, pin=UNKNOWN.pin, processes=1)
+                     rationality=UNKNOWN.rationality, pin=UNKNOWN.pin, backend=Processes(1))
     assert np.all(np.isfinite(post.rationality))

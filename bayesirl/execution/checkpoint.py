@@ -24,9 +24,9 @@ from pathlib import Path
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.execution.chains import ChainRecord
 from bayesirl.files import atomic_target
 from bayesirl.posterior import storage
-from bayesirl.posterior.chains import ChainRecord
 from bayesirl.posterior.model import PosteriorModel
 
 FORMAT = "bayesirl-checkpoint/1"

@@ -19,8 +19,8 @@ import time
 import traceback
 from multiprocessing import get_all_start_methods, get_context
 
-from bayesirl.posterior.chains import run_job
-from bayesirl.posterior.interrupt import Stopper
+from bayesirl.execution.chains import run_job
+from bayesirl.execution.interrupt import Stopper
 from bayesirl.threads import one_blas_thread
 
 _POLL = 0.05  # seconds between checks of the stop flag while waiting for messages

@@ -3,13 +3,13 @@
 The pickled problem (the :class:`PosteriorModel` with its likelihood, MDP and
 demonstrations) is scattered to every worker once; each chain task receives a reference to
 it plus its own seed child, unpickles a fresh, cold copy and runs the same code as a local
-chain (:func:`bayesirl.posterior.chains.run_job`), so the same seed gives bit-identical
+chain (:func:`bayesirl.execution.chains.run_job`), so the same seed gives bit-identical
 draws. A worker that dies mid-run has its chain rescheduled by the scheduler and rerun from
 its seed (the scheduler's ``distributed.scheduler.allowed-failures``, 3 by default, bounds
 how often); the chains that finished elsewhere are kept.
 
-Dask is optional: it is imported here, lazily, only when ``sample(..., cluster=...)`` is
-used. See the README, "Running chains on a cluster".
+Dask is optional: it is imported here, lazily, only when a ``Cluster`` backend is
+used (:class:`bayesirl.Cluster`). See the README, "Running chains on a cluster".
 """
 
 from __future__ import annotations
@@ -25,8 +25,8 @@ from typing import Any
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.posterior.chains import _LIK, ChainRecord, run_job
-from bayesirl.posterior.interrupt import Stopper
+from bayesirl.execution.chains import _LIK, ChainRecord, run_job
+from bayesirl.execution.interrupt import Stopper
 from bayesirl.threads import one_blas_thread
 
 # Seconds to wait for a scheduler to answer before refusing its address.
@@ -39,14 +39,13 @@ KEY_PREFIX = "bayesirl-chain"
 _SCHEMES = ("tcp://", "tls://", "inproc://", "ucx://", "ws://", "wss://")
 
 
-def check_arguments(cluster: Any, checkpoint: Any, resume: bool, processes: Any) -> None:
-    """Refuse settings that ``cluster=`` does not support (before any work is done).
+def check_address(cluster: Any) -> None:
+    """Refuse a ``cluster`` that is not an address string, ``"local"`` or a Client.
 
     Raises
     ------
     InputError
-        ``cluster`` is not an address string, ``"local"`` or a ``distributed.Client``, or
-        it is combined with ``checkpoint``, ``resume`` or ``processes``.
+        Before any work is done (see :class:`bayesirl.execution.backend.Cluster`).
     """
     if isinstance(cluster, str):
         address = cluster.strip()
@@ -57,12 +56,6 @@ def check_arguments(cluster: Any, checkpoint: Any, resume: bool, processes: Any)
         raise InputError(f"cluster: expected 'local', a scheduler address such as "
                          f"'tcp://host:8786', or a distributed.Client; got "
                          f"{type(cluster).__name__} {cluster!r}")
-    if checkpoint is not None or resume:
-        raise InputError("cluster: checkpoints are not supported on a cluster yet; drop "
-                         "checkpoint=/resume= (or run without cluster=)")
-    if processes is not None:
-        raise InputError("cluster: processes= applies to local runs only; on a cluster each "
-                         "chain is one task and the workers decide where it runs")
 
 
 def _is_client(obj: Any) -> bool:
@@ -122,27 +115,27 @@ def connect(cluster: Any, chains: int) -> Iterator[Any]:
 
 
 def _worker_version() -> str:
-    import bayesirl
+    from bayesirl.version import __version__
 
-    return bayesirl.__version__
+    return __version__
 
 
 def check_workers(client: Any) -> None:
     """Refuse a cluster without workers or whose workers run another bayesirl version."""
-    import bayesirl
+    from bayesirl.version import __version__
 
     try:
         versions = client.run(_worker_version)
     except Exception as err:  # noqa: BLE001 - e.g. ModuleNotFoundError on a worker
         raise InputError(f"cluster: the workers cannot run bayesirl ({err!r}); install "
-                         f"bayesirl {bayesirl.__version__} on every worker") from err
+                         f"bayesirl {__version__} on every worker") from err
     if not versions:
         raise InputError("cluster: the scheduler has no workers; start some with "
                          "'dask worker ADDRESS'")
-    other = {w: v for w, v in versions.items() if v != bayesirl.__version__}
+    other = {w: v for w, v in versions.items() if v != __version__}
     if other:
         raise InputError(f"cluster: workers run another bayesirl version than this process "
-                         f"({bayesirl.__version__}): {other}")
+                         f"({__version__}): {other}")
 
 
 def chain_task(blob: bytes, k: int, seed: np.random.SeedSequence,

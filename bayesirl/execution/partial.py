@@ -14,8 +14,8 @@ from pathlib import Path
 import numpy as np
 
 from bayesirl.errors import Interrupted
-from bayesirl.posterior import checkpoint as ckpt
-from bayesirl.posterior.chains import ChainRecord, result_of
+from bayesirl.execution import checkpoint as ckpt
+from bayesirl.execution.chains import ChainRecord, result_of
 from bayesirl.posterior.posterior import Posterior
 from bayesirl.sampler import ChainResult
 from bayesirl.sampler.transitions import STATS

@@ -6,24 +6,27 @@ draws of an uninterrupted run; see docs/checkpoints.md for the design.
 
 from __future__ import annotations
 
-import os
 import pickle
 import time
+from collections.abc import Mapping
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.posterior import checkpoint as ckpt
-from bayesirl.posterior import cluster as dask_cluster
-from bayesirl.posterior.chains import run_job
+from bayesirl.execution import checkpoint as ckpt
+from bayesirl.execution.backend import Backend, ChainJob, Processes, backend_of
+from bayesirl.execution.partial import Book, finish
+from bayesirl.execution.progress import ChainProgress
 from bayesirl.posterior.groups import make_model
-from bayesirl.posterior.interrupt import Stopper
-from bayesirl.posterior.parallel import run_parallel
-from bayesirl.posterior.partial import Book, finish
-from bayesirl.posterior.progress import ChainProgress
 from bayesirl.resources import check_sampling
-from bayesirl.threads import one_blas_thread
+
+if TYPE_CHECKING:
+    from bayesirl.likelihood import BoltzmannLikelihood
+    from bayesirl.posterior import Posterior
+    from bayesirl.posterior.groups import Pooling
+    from bayesirl.priors import LogNormal, Prior
 
 # Seconds between checkpoint writes (and between state reports from workers).
 CHECKPOINT_EVERY = 2.0
@@ -40,7 +43,7 @@ def _whole(name: str, v, low: int) -> int:
     return int(v)
 
 
-def _check(likelihood, prior, chains, draws, warmup, method, seed, processes, max_depth,
+def _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth,
            target_accept) -> None:
     if likelihood is None or not hasattr(likelihood, "mdp") or not hasattr(likelihood,
                                                                             "evaluate"):
@@ -52,8 +55,6 @@ def _check(likelihood, prior, chains, draws, warmup, method, seed, processes, ma
     n = {k: _whole(k, v, low) for k, v, low in (("chains", chains, 1), ("draws", draws, 1),
                                                  ("warmup", warmup, 0), ("seed", seed, 0),
                                                  ("max_depth", max_depth, 1))}
-    if processes is not None:
-        _whole("processes", processes, 1)
     if method not in ("nuts", "random-walk"):
         raise InputError(f"method: expected 'nuts' or 'random-walk'; got {method!r}")
     if target_accept is not None:
@@ -67,25 +68,25 @@ def _check(likelihood, prior, chains, draws, warmup, method, seed, processes, ma
 
 
 def sample(
-    likelihood,
-    prior=None,
+    likelihood: BoltzmannLikelihood,
+    prior: Prior | None = None,
+    *,
     chains: int = 4,
     draws: int = 1000,
     warmup: int = 1000,
     seed: int = 0,
     method: str = "nuts",
     progress: bool = True,
-    rationality=None,
-    pin: dict | None = None,
+    rationality: float | LogNormal | None = None,
+    pin: Mapping[str, float] | None = None,
     dense_mass: bool = False,
     target_accept: float | None = None,
     max_depth: int = 10,
-    processes: int | None = None,
+    backend: Backend | None = None,
     checkpoint: str | Path | None = None,
     resume: bool = False,
-    cluster=None,
-    pooling=None,
-):
+    pooling: str | Pooling | None = None,
+) -> Posterior:
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
     Parameters
@@ -100,10 +101,11 @@ def sample(
         gives the same draws whether chains run in parallel or one after another.
     method : {"nuts", "random-walk"}
     progress : bool
-        One line per chain on a terminal (never when output is not a terminal); with
-        ``cluster``, a line as each chain finishes.
+        One line per chain on a terminal (never when output is not a terminal); on a
+        ``Cluster``, a line as each chain finishes.
     rationality : None, float or LogNormal
-        Fixed (None: the likelihood's) or sampled with this prior; then ``pin`` one weight.
+        Fixed, or sampled with this prior (then ``pin`` one weight); None: the likelihood's
+        own (a number, or a prior given to ``BoltzmannLikelihood(rationality=)``).
     pin : dict, optional
         ``{feature name: value}`` weights held fixed (sets the scale when beta is sampled;
         its sign is an assumption you make).
@@ -111,8 +113,12 @@ def sample(
         Adapt a dense rather than diagonal mass matrix.
     target_accept, max_depth
         NUTS settings (defaults 0.8 and 10).
-    processes : int, optional
-        Worker processes; default ``min(chains, cpu count)``; 1 runs in this process.
+    backend : Serial, Processes or Cluster, optional
+        Where the chains run (:mod:`bayesirl.execution.backend`): ``Processes()`` (the
+        default: ``min(chains, cpu count)`` worker processes; ``Processes(1)`` runs in this
+        process), ``Serial()`` (this process) or ``Cluster("local" | address | client)``
+        (one Dask task per chain; no checkpoint). The same seed gives the same draws on
+        every backend.
     checkpoint : str or Path, optional
         File (``.npz``) that receives every chain's full sampler state every few seconds
         and when the run stops or ends; written atomically. Without ``resume`` an existing
@@ -121,13 +127,6 @@ def sample(
         Continue from ``checkpoint`` (which must exist and come from a run with the same
         problem, prior, seed, chains and settings): the result is bit-identical to an
         uninterrupted run. A finished checkpoint returns its posterior at once.
-    cluster : str or distributed.Client, optional
-        Run each chain as one Dask task: ``"local"`` (a ``LocalCluster`` of processes for
-        this run, closed afterwards), a scheduler address (``"tcp://host:8786"``) or a
-        ``distributed.Client``. The same seed gives the same draws as a local run; a chain
-        whose worker dies is rerun from its seed. Needs ``bayesirl[cluster]``; cannot be
-        combined with ``checkpoint``, ``resume`` or ``processes`` (see the README,
-        "Running chains on a cluster").
     pooling : {"pooled", "separate", "partial"} or Pooling, optional
         How episodes of different demonstrators (``Demonstrations(..., demonstrators=)``)
         share a reward; default ``"pooled"``: one reward for every episode. ``"partial"``:
@@ -150,11 +149,10 @@ def sample(
     InputError
         Bad arguments, or a checkpoint that is missing or belongs to another run.
     """
-    _check(likelihood, prior, chains, draws, warmup, method, seed, processes, max_depth,
-           target_accept)
+    _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth, target_accept)
     chains, draws, warmup, seed = int(chains), int(draws), int(warmup), int(seed)
-    if cluster is not None:
-        dask_cluster.check_arguments(cluster, checkpoint, resume, processes)
+    where = backend_of(backend, Processes())
+    where.check(checkpoint=checkpoint is not None or bool(resume))
     if resume and checkpoint is None:
         raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
     model = make_model(likelihood, prior, rationality, pin, pooling)
@@ -165,36 +163,11 @@ def sample(
     path = None if checkpoint is None else Path(checkpoint)
     run = ckpt.identity(model, settings, seed, chains) if path is not None else None
     saved = ckpt.load(path, run) if resume else [None] * int(chains)
-    blob = pickle.dumps(model)
-    n_proc = min(int(chains), os.cpu_count() or 1) if processes is None else int(processes)
     bar = ChainProgress(int(chains), int(draws) + int(warmup), enabled=progress)
     book = Book(path, run, saved, bar, CHECKPOINT_EVERY)
-    interval = CHECKPOINT_EVERY if path is not None else None
+    job = ChainJob(pickle.dumps(model), seeds, settings, saved, book.on_message,
+                   CHECKPOINT_EVERY if path is not None else None, bool(progress), bar.close)
     t0 = time.perf_counter()
-    if cluster is not None:  # Ctrl-C cancels the tasks and keeps nothing (no Interrupted)
-        records = dask_cluster.run_on_cluster(cluster, blob, seeds, settings, progress)
-        return finish(model, records, settings, int(seed), time.perf_counter() - t0, book,
-                      None)
-    with Stopper() as stopper, one_blas_thread():
-        try:
-            if n_proc <= 1:
-                records = _run_serial(blob, seeds, settings, saved, stopper, book, interval)
-            else:
-                records = run_parallel(blob, seeds, settings, saved, n_proc, stopper,
-                                       book.on_message, interval)
-        finally:
-            bar.close()
-    return finish(model, records, settings, int(seed), time.perf_counter() - t0, book,
-                  stopper.signum)
-
-
-def _run_serial(blob, seeds, settings, saved, stopper, book, interval):
-    records = list(saved)
-    for k, s in enumerate(seeds):
-        if stopper.stopped:
-            break
-        record = run_job(blob, k, s, settings, saved[k], stopper, book.on_message, interval)
-        if record is not None:
-            records[k] = record
-            book.on_message("final", k, (record, stopper.stopped, stopper.signum))
-    return records
+    done = where.run_chains(job)
+    return finish(model, done.records, settings, int(seed), time.perf_counter() - t0, book,
+                  done.signum)

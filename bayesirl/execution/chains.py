@@ -19,8 +19,8 @@ from typing import NamedTuple
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.posterior import interrupt
-from bayesirl.posterior.interrupt import Guarded, Stopper, StopRequested
+from bayesirl.execution import interrupt
+from bayesirl.execution.interrupt import Guarded, Stopper, StopRequested
 from bayesirl.posterior.model import PosteriorModel
 from bayesirl.sampler import ChainResult
 from bayesirl.sampler.driver import Chain, ChainSettings
