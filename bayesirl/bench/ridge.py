@@ -43,7 +43,7 @@ def _row(problem_path: Path, walks: Path, dense: bool, draws: int, warmup: int) 
     problem = read_problem(problem_path)
     demos = read_demonstrations(walks, problem)
     lik = BoltzmannLikelihood(problem.mdp, demos, rationality=problem.rationality,
-                              q=problem.demonstrator, **problem.solver)
+                              q_function=problem.q_function, **problem.solver)
     t0 = time.perf_counter()
     post = sample(lik, prior=problem.prior, chains=4, draws=draws, warmup=warmup, seed=0,
                   dense_mass=dense, progress=False)
