@@ -195,6 +195,8 @@ def test_an_error_in_a_chain_reaches_the_caller(client):
 
 def test_workers_with_another_bayesirl_version_are_refused(client, monkeypatch):
     dc.check_workers(client)  # negative control: the same version passes
-    monkeypatch.setattr(bi, "__version__", "0.0.0-other")
+    import bayesirl.version
+
+    monkeypatch.setattr(bayesirl.version, "__version__", "0.0.0-other")  # where it is read
     with pytest.raises(bi.InputError, match="workers run another bayesirl version"):
         bi.sample(problem(), PRIOR, **RUN, backend=Cluster(client))
