@@ -67,6 +67,8 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
     summary = {"format": RUN_FORMAT, "complete": bool(complete),
                "bayesirl_version": bayesirl.__version__, **record,
                "draws_done": int(posterior.n_draws) if drawn else _earlier_draws(run)}
+    if drawn and complete and _small_enough(posterior):
+        posterior.compute_log_likelihood()  # for bayesirl compare and the predictive check
     if drawn:
         posterior.save(run.posterior)
     if complete:
@@ -78,6 +80,13 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+def _small_enough(posterior) -> bool:
+    """Whether the per-episode log-likelihood (one solve per draw) is cheap enough to
+    compute before saving; otherwise ``bayesirl compare`` computes it when first asked."""
+    mdp = posterior.model.likelihood.mdp
+    return mdp.n_states * posterior.n_chains * posterior.n_draws <= 4 * 10**7
 
 
 def started_summary(record: dict) -> dict:
