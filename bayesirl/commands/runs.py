@@ -82,6 +82,17 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
     return summary
 
 
+def _attach_predictive_check(report, posterior, summary: dict) -> None:
+    """The posterior predictive checks for the report's model-fit section (complete runs)."""
+    if not summary.get("complete") or posterior.n_draws == 0:
+        return
+    from bayesirl.modelfit.predictive import predictive_check
+    from bayesirl.report.predictive import as_dict
+
+    report.predictive = predictive_check(posterior, seed=int(posterior.seed))
+    summary["model_fit"] = as_dict(report.predictive)
+
+
 def _small_enough(posterior) -> bool:
     """Whether the per-episode log-likelihood (one solve per draw) is cheap enough to
     compute before saving; otherwise ``bayesirl compare`` computes it when first asked."""
@@ -115,6 +126,7 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         write_json(run.summary, summary)
         return summary
     report = ambiguity(posterior, level=level, **options)
+    _attach_predictive_check(report, posterior, summary)
     report.to_html(run.report)
     if not summary.get("complete"):
         _mark_incomplete(run.report, summary)
@@ -123,6 +135,8 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         if not summary.get("complete"):
             print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
+        if "model_fit" in summary:
+            print("model fit: " + " ".join(summary["model_fit"]["verdict"]))
     _demonstrators(run, posterior, level, summary, quiet)
     write_json(run.summary, summary)
     return summary
