@@ -72,3 +72,19 @@ def test_refit_episodes_reproduces_the_same_computation():
     v = _held_out_values(refit, bi.BoltzmannLikelihood(lik.mdp, lik.demos.subset([0])),
                          lik.demos, 0)
     assert got[0] == logsumexp(v) - np.log(v.size)
+
+
+def test_refit_replaces_the_unreliable_episodes(monkeypatch):
+    import bayesirl.modelfit.loo as loo_module
+
+    post = bi.sample(two_feature_likelihood(), seed=5, chains=2, draws=80, warmup=80,
+                     processes=1, progress=False)
+    plain = episode_loo(post)
+    monkeypatch.setattr(loo_module, "K_LIMIT", np.sort(plain.pareto_k)[-3])  # top two
+    chosen = [int(e) for e in np.argsort(plain.pareto_k)[-2:]]
+    refitted = episode_loo(post, refit=True)
+    assert sorted(refitted.refitted) == sorted(chosen) and refitted.unreliable == []
+    np.testing.assert_array_equal(refitted.elpd_i[chosen], refit_episodes(post, chosen))
+    others = [e for e in range(6) if e not in chosen]
+    np.testing.assert_array_equal(refitted.elpd_i[others], plain.elpd_i[others])
+    assert refitted.elpd == pytest.approx(refitted.elpd_i.sum())
