@@ -82,9 +82,17 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
     return summary
 
 
+PREDICTIVE_MAX_STATES = 20_000
+
+
 def _attach_predictive_check(report, posterior, summary: dict) -> None:
     """The posterior predictive checks for the report's model-fit section (complete runs)."""
     if not summary.get("complete") or posterior.n_draws == 0:
+        return
+    if posterior.model.likelihood.mdp.n_states > PREDICTIVE_MAX_STATES:
+        # 200 policy solves and rollouts: minutes at this size; Python can still run it.
+        summary["model_fit"] = {"skipped": "more than 20000 states; run "
+                                "bayesirl.modelfit.predictive.predictive_check(posterior)"}
         return
     from bayesirl.modelfit.predictive import predictive_check
     from bayesirl.report.predictive import as_dict
@@ -135,7 +143,7 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         if not summary.get("complete"):
             print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
-        if "model_fit" in summary:
+        if "verdict" in summary.get("model_fit", {}):
             print("model fit: " + " ".join(summary["model_fit"]["verdict"]))
     _demonstrators(run, posterior, level, summary, quiet)
     write_json(run.summary, summary)

@@ -80,3 +80,11 @@ def test_conclusion_says_no_clear_difference_within_two_se():
 def test_command_needs_two_runs(tmp_path, capsys):
     assert main(["compare", str(tmp_path)]) == 2
     assert "at least two" in capsys.readouterr().err
+
+
+def test_fixed_and_sampled_rationality_can_be_compared():
+    soft, _ = runs()
+    sampled = bi.sample(two_feature_likelihood(), seed=3, rationality=bi.LogNormal(0.0, 1.0),
+                        pin={"x": 0.8}, **SAMPLING)
+    table = compare([soft, sampled], ["fixed", "sampled"]).table()
+    assert "rationality sampled" in table and "rationality 1" in table
