@@ -17,6 +17,7 @@ from functools import cache
 from importlib.metadata import version
 from pathlib import Path
 from types import ModuleType
+from typing import NamedTuple
 
 import numpy as np
 
@@ -143,3 +144,40 @@ def from_netcdf(path: Path | str):
     for name in data.groups():
         data[name].load()
     return data
+
+
+def group(data, name: str):
+    """Group ``name`` of a container from :func:`from_netcdf` / :func:`from_groups` (an
+    ``xarray.Dataset``-like mapping of variables), or None when the file has no such group."""
+    names = data.groups() if callable(getattr(data, "groups", None)) else list(data.children)
+    names = [n.strip("/") for n in names]
+    if name not in names:
+        return None
+    return data[name] if series() < 1 else data[name].dataset
+
+
+class Loo(NamedTuple):
+    """PSIS-LOO (Vehtari, Gelman & Gabry 2017): expected log predictive density, its
+    standard error, effective number of parameters, and per observation ``elpd_i`` and
+    Pareto ``k``."""
+
+    elpd: float
+    se: float
+    p: float
+    elpd_i: np.ndarray
+    pareto_k: np.ndarray
+
+
+def loo(data, var_name: str) -> Loo:
+    """PSIS-LOO of the ``log_likelihood`` variable ``var_name`` of ``data`` (a container
+    from :func:`from_groups` or :func:`from_netcdf`; its posterior group gives the relative
+    efficiency). ArviZ's warning about large ``k`` is silenced: callers report ``k``."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        if series() >= 1:
+            r = _stats().loo(data, pointwise=True, var_name=var_name)
+            return Loo(float(r.elpd), float(r.se), float(r.p), np.asarray(r.elpd_i),
+                       np.asarray(r.pareto_k))
+        r = _arviz0().loo(data, pointwise=True, var_name=var_name)
+        return Loo(float(r.elpd_loo), float(r.se), float(r.p_loo), np.asarray(r.loo_i),
+                   np.asarray(r.pareto_k))

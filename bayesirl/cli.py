@@ -82,6 +82,12 @@ def _check(args):
     return check_command(args)
 
 
+def _compare(args):
+    from bayesirl.commands.compare import compare_command
+
+    return compare_command(args)
+
+
 def _example(args):
     from bayesirl.commands.example import example_command
 
@@ -203,6 +209,7 @@ def _other_parsers(sub) -> None:
                      help="split the policy solves and the candidate scoring across a Dask "
                           "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "
                           "machine (needs bayesirl[cluster]; same suggestions as without)")
+    _compare_parser(sub)
     chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
                "structural identifiability findings, without sampling",
                "bayesirl check park.toml walks.csv", _check)
@@ -222,6 +229,16 @@ def _other_parsers(sub) -> None:
                      help="simulated data sets per check (default 200)")
     val.add_argument("--out", default="reports", help="folder for the report (default reports)")
     val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
+
+
+def _compare_parser(sub) -> None:
+    cmp = _add(sub, "compare", "rank runs on the same demonstrations by how well they "
+               "predict left-out episodes (PSIS-LOO)", "bayesirl compare park-run "
+               "park-no-water", _compare)
+    cmp.add_argument("runs", nargs="+", metavar="RUN", help="run folders made by bayesirl fit "
+                     "on the same demonstrations (two or more)")
+    cmp.add_argument("--refit", action="store_true", help="sample again without each episode "
+                     "whose Pareto k exceeds 0.7 (exact, one run per episode)")
 
 
 def _large_options(bench) -> None:

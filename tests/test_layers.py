@@ -29,6 +29,7 @@ LAYERS = {
     "priors": 5,
     "report": 7,
     "design": 7,
+    "modelfit": 7,  # model checking and comparison on posteriors (below report and CLI)
     "io": 8,
     "validation": 9,
     "scenarios": 9,

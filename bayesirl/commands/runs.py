@@ -67,6 +67,8 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
     summary = {"format": RUN_FORMAT, "complete": bool(complete),
                "bayesirl_version": bayesirl.__version__, **record,
                "draws_done": int(posterior.n_draws) if drawn else _earlier_draws(run)}
+    if drawn and complete and _small_enough(posterior):
+        posterior.compute_log_likelihood()  # for bayesirl compare and the predictive check
     if drawn:
         posterior.save(run.posterior)
     if complete:
@@ -78,6 +80,32 @@ def save_draws(run: RunFolder, posterior, record: dict, complete: bool) -> dict:
                            "<this folder>; report.html is written when the run completes")
     write_json(run.summary, summary)
     return summary
+
+
+PREDICTIVE_MAX_STATES = 20_000
+
+
+def _attach_predictive_check(report, posterior, summary: dict) -> None:
+    """The posterior predictive checks for the report's model-fit section (complete runs)."""
+    if not summary.get("complete") or posterior.n_draws == 0:
+        return
+    if posterior.model.likelihood.mdp.n_states > PREDICTIVE_MAX_STATES:
+        # 200 policy solves and rollouts: minutes at this size; Python can still run it.
+        summary["model_fit"] = {"skipped": "more than 20000 states; run "
+                                "bayesirl.modelfit.predictive.predictive_check(posterior)"}
+        return
+    from bayesirl.modelfit.predictive import predictive_check
+    from bayesirl.report.predictive import as_dict
+
+    report.predictive = predictive_check(posterior, seed=int(posterior.seed))
+    summary["model_fit"] = as_dict(report.predictive)
+
+
+def _small_enough(posterior) -> bool:
+    """Whether the per-episode log-likelihood (one solve per draw) is cheap enough to
+    compute before saving; otherwise ``bayesirl compare`` computes it when first asked."""
+    mdp = posterior.model.likelihood.mdp
+    return mdp.n_states * posterior.n_chains * posterior.n_draws <= 4 * 10**7
 
 
 def started_summary(record: dict) -> dict:
@@ -118,6 +146,7 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         write_json(run.summary, summary)
         return summary
     report = ambiguity(posterior, level=level, **options)
+    _attach_predictive_check(report, posterior, summary)
     report.to_html(run.report)
     if not summary.get("complete"):
         _mark_incomplete(run.report, summary)
@@ -126,6 +155,8 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         if not summary.get("complete"):
             print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
+        if "verdict" in summary.get("model_fit", {}):
+            print("model fit: " + " ".join(summary["model_fit"]["verdict"]))
     _demonstrators(run, posterior, level, summary, quiet)
     write_json(run.summary, summary)
     return summary

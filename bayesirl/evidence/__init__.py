@@ -8,7 +8,7 @@ estimated dynamics) is one new module with a class satisfying :class:`EvidenceTe
 from bayesirl.evidence.boltzmann import BoltzmannTerm
 from bayesirl.evidence.groups import demonstrator_evidence, pooled_evidence, weights_name
 from bayesirl.evidence.model import Evidence
-from bayesirl.evidence.term import EvidenceTerm, TermValue
+from bayesirl.evidence.term import EvidenceTerm, Pointwise, PointwiseTerm, TermValue
 
-__all__ = ["BoltzmannTerm", "Evidence", "EvidenceTerm", "TermValue", "demonstrator_evidence",
-           "pooled_evidence", "weights_name"]
+__all__ = ["BoltzmannTerm", "Evidence", "EvidenceTerm", "Pointwise", "PointwiseTerm",
+           "TermValue", "demonstrator_evidence", "pooled_evidence", "weights_name"]

@@ -12,7 +12,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from bayesirl.evidence.term import TermValue
+from bayesirl.evidence.term import Pointwise, TermValue
 
 
 class BoltzmannTerm:
@@ -26,11 +26,17 @@ class BoltzmannTerm:
         Prefix of the warm-start arrays ("" only for a model's single term).
     weights, rationality : str
         Names of the quantities read: the reward weights and the inverse temperature.
+    episodes : array of int, optional
+        Where the likelihood's episodes sit in the whole demonstration set (default: they
+        are the whole set); used by :meth:`pointwise`.
     """
 
     def __init__(self, likelihood, key: str = "", weights: str = "weights",
-                 rationality: str = "rationality") -> None:
+                 rationality: str = "rationality", episodes=None) -> None:
         self.likelihood = likelihood
+        n = likelihood.demos.n_episodes
+        self.episodes = (np.arange(n, dtype=np.int64) if episodes is None
+                         else np.asarray(episodes, dtype=np.int64))
         self.key = key
         self.weights_name, self.rationality_name = weights, rationality
         self.reads = (weights, rationality)
@@ -53,6 +59,16 @@ class BoltzmannTerm:
         v = self.likelihood.evaluate(w, beta)
         return TermValue(v.loglik, {self.weights_name: v.grad_weights,
                                     self.rationality_name: v.grad_log_rationality})
+
+    def pointwise(self, quantities: Mapping[str, object]) -> Pointwise:
+        """Per-episode and per-step log-likelihood (the steps' actions are conditionally
+        independent given the reward, so each step is an observation of its own)."""
+        lik = self.likelihood
+        steps = lik.step_log_likelihood(quantities[self.weights_name],
+                                        quantities[self.rationality_name])
+        per_episode = np.bincount(lik.demos.steps.episodes, weights=steps,
+                                  minlength=lik.demos.n_episodes)
+        return Pointwise(self.episodes, per_episode, steps)
 
     # A likelihood without warm-start methods (a test double, a user's wrapper) still works;
     # its resumes are then exact only if its values do not depend on its history.

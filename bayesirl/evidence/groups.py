@@ -45,8 +45,9 @@ def split_likelihood(likelihood) -> list[BoltzmannLikelihood]:
 def demonstrator_evidence(likelihood) -> Evidence:
     """Evidence with term ``d{i}`` reading ``weights/{i}`` for the i-th demonstrator."""
     parts = split_likelihood(likelihood)
-    return Evidence([BoltzmannTerm(lik, key=f"d{i}", weights=weights_name(i))
-                     for i, lik in enumerate(parts)])
+    where = list(likelihood.demos.groups().values())
+    return Evidence([BoltzmannTerm(lik, key=f"d{i}", weights=weights_name(i),
+                                   episodes=where[i]) for i, lik in enumerate(parts)])
 
 
 def pooled_evidence(likelihood) -> Evidence:

@@ -13,7 +13,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.term import EvidenceTerm, TermValue
+from bayesirl.evidence.term import EvidenceTerm, PointwiseTerm, TermValue
 
 
 class Evidence:
@@ -59,6 +59,32 @@ class Evidence:
                 # Never add in place: a term may hand out an array it keeps.
                 grads[name] = g if name not in grads else grads[name] + g
         return TermValue(total, grads)
+
+    def pointwise(self, quantities: Mapping[str, object],
+                  lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
+        """Log density per episode ``(E,)`` and per step ``(sum(lengths),)`` or None.
+
+        ``lengths`` are the actions per episode of the whole demonstration set. Several
+        terms explaining the same episode add up; per-step values are given only when every
+        term gives them. Raises InputError if a term cannot split its log density.
+        """
+        lengths = np.asarray(lengths, dtype=np.int64)
+        offsets = np.concatenate([[0], np.cumsum(lengths)])
+        episode = np.zeros(lengths.size)
+        step: np.ndarray | None = np.zeros(int(offsets[-1]))
+        for term in self.terms:
+            if not isinstance(term, PointwiseTerm):
+                raise InputError(f"evidence: term {term.key!r} ({type(term).__name__}) "
+                                 "cannot split its log density by episode")
+            part = term.pointwise(quantities)
+            np.add.at(episode, part.episodes, part.episode)
+            if part.step is None or step is None:
+                step = None
+                continue
+            where = np.concatenate([np.arange(offsets[e], offsets[e + 1])
+                                    for e in part.episodes])
+            np.add.at(step, where, part.step)
+        return episode, step
 
     # -- warm starts: the terms' states side by side ---------------------------------------
     def warm_start(self) -> tuple:

@@ -29,6 +29,29 @@ class TermValue(NamedTuple):
     grads: Mapping[str, np.ndarray | float]
 
 
+class Pointwise(NamedTuple):
+    """A term's log density split by observation, for model checking and PSIS-LOO.
+
+    ``episodes`` are the indices (in the whole demonstration set) of the episodes the term
+    explains, ``episode`` their log densities (summing to the term's value) and ``step``,
+    where a step is an observation of its own, the per-step values of those episodes in
+    order (episode, then time), else None.
+    """
+
+    episodes: np.ndarray
+    episode: np.ndarray
+    step: np.ndarray | None
+
+
+@runtime_checkable
+class PointwiseTerm(Protocol):
+    """An evidence term that can split its log density by episode (every built-in term)."""
+
+    def pointwise(self, quantities: Mapping[str, object]) -> Pointwise:
+        """The term's log density at ``quantities``, per episode (and per step)."""
+        ...
+
+
 @runtime_checkable
 class EvidenceTerm(Protocol):
     """One source of evidence about the parameters.

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, NamedTuple, Protocol
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.likelihood import optimal, soft, warm
+from bayesirl.likelihood import optimal, pointwise, soft, warm
 from bayesirl.likelihood.counts import demo_counts
 
 if TYPE_CHECKING:
@@ -171,6 +171,22 @@ class BoltzmannLikelihood:
     def log_likelihood(self, weights, rationality: float | None = None) -> float:
         """Log-likelihood only; an alias of :meth:`value`."""
         return self.value(weights, rationality)
+
+    def step_log_likelihood(self, weights, rationality: float | None = None) -> np.ndarray:
+        """``log pi(a_t | s_t)`` of every demonstrated step (``demos.steps`` order).
+
+        Solved afresh, without the warm starts (which stay as they were); the sum equals
+        :meth:`value` to the solver's tolerance.
+        """
+        w = self.mdp.check_weights(weights)
+        beta = self.rationality if rationality is None else _positive(rationality)
+        log_pi, _ = pointwise.log_policy(self.mdp, self.q, w, beta)
+        return pointwise.step_values(log_pi, self.demos)
+
+    def episode_log_likelihood(self, weights, rationality: float | None = None) -> np.ndarray:
+        """Log-likelihood of each episode (sum of its steps), in the order of ``demos``."""
+        return pointwise.episode_values(self.step_log_likelihood(weights, rationality),
+                                        self.demos)
 
 
 def _count(value, name: str) -> int:

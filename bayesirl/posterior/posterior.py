@@ -19,6 +19,11 @@ from bayesirl.posterior.group_draws import (
     group_names,
     read_groups,
 )
+from bayesirl.posterior.loglik import (
+    add_log_likelihood,
+    pointwise_log_likelihood,
+    read_log_likelihood,
+)
 from bayesirl.posterior.model import PosteriorModel
 
 # Names in ArviZ's sample_stats convention.
@@ -46,6 +51,9 @@ class Posterior:
         ``demonstrator_weights`` ``(chains, draws, G, F)``, ``demonstrators`` (G names) and,
         for partial pooling, ``spread`` ``(chains, draws, F)``. ``weights`` then holds the
         population mean (partial) or the mean of the G demonstrators' weights (separate).
+    log_likelihood : None, or ``{"episodes": (chains, draws, E)}`` (and ``"steps"``
+        ``(chains, draws, N)``): each draw's log-likelihood per episode (per step); filled
+        by :meth:`compute_log_likelihood`, saved as ArviZ's log_likelihood group.
     """
 
     def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
@@ -63,6 +71,15 @@ class Posterior:
         self.chain_times = [float(t) for t in chain_times]
         self.complete = bool(complete)
         self._diagnostics = None
+        self.log_likelihood: dict | None = None
+
+    def compute_log_likelihood(self, *, steps: bool = False) -> dict:
+        """Each draw's log-likelihood per episode (and per step with ``steps``), kept in
+        :attr:`log_likelihood` and saved with the posterior (one solve per draw)."""
+        have = self.log_likelihood or {}
+        if "episodes" not in have or (steps and "steps" not in have):
+            self.log_likelihood = pointwise_log_likelihood(self, steps=steps)
+        return self.log_likelihood
 
     # -- construction -------------------------------------------------------------------
     @classmethod
@@ -168,13 +185,14 @@ class Posterior:
         if self.rationality is not None:
             post["rationality"] = self.rationality
         add_groups(self.groups, post, dims, coords)
-        const, const_dims = storage.problem_arrays(self.model)
+        arrays, const_dims = storage.problem_arrays(self.model)
         dims.update(const_dims)
+        const, observed = storage.split_observed(arrays)
         meta = {"bayesirl_run": json.dumps(self._meta(), sort_keys=True)}
-        return arviz.from_groups(
-            {"posterior": post, "sample_stats": self.stats, "constant_data": const},
-            coords=coords, dims=dims, attrs=meta,
-        )
+        groups = {"posterior": post, "sample_stats": self.stats, "observed_data": observed,
+                  "constant_data": const}
+        add_log_likelihood(self.log_likelihood, groups, dims)
+        return arviz.from_groups(groups, coords=coords, dims=dims, attrs=meta)
 
     def _meta(self) -> dict:
         return {"format": storage.FORMAT, "seed": self.seed, "wall_time": self.wall_time,
@@ -191,10 +209,13 @@ class Posterior:
         """Restore a posterior, with its MDP, demonstrations, prior and settings."""
         idata = arviz.from_netcdf(path)
         meta = json.loads(idata.constant_data.attrs["bayesirl_run"])
-        model = storage.rebuild_model(idata.constant_data, meta)
+        observed = arviz.group(idata, "observed_data")
+        model = storage.rebuild_model(idata.constant_data, meta, observed)
         stats = {k: idata.sample_stats[k].values for k in _STAT_NAMES.values()}
         post = idata.posterior
         beta = post["rationality"].values if "rationality" in post else None
-        return cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
-                   meta["wall_time"], meta["chain_times"], meta.get("complete", True),
-                   read_groups(post))
+        out = cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
+                  meta["wall_time"], meta["chain_times"], meta.get("complete", True),
+                  read_groups(post))
+        out.log_likelihood = read_log_likelihood(idata)
+        return out

@@ -68,8 +68,24 @@ def problem_meta(model: PosteriorModel) -> dict:
             "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
 
 
-def rebuild_model(const, meta: dict) -> PosteriorModel:
-    """Inverse of :func:`problem_arrays` + :func:`problem_meta`."""
+# The demonstrations are the observations (ArviZ's observed_data); the MDP is constant_data.
+OBSERVED = ("demo_states", "demo_actions", "demo_state_counts", "demo_action_counts",
+            "demo_demonstrators")
+
+
+def split_observed(arrays: dict) -> tuple[dict, dict]:
+    """``(constant_data, observed_data)`` parts of :func:`problem_arrays`' arrays."""
+    return ({k: v for k, v in arrays.items() if k not in OBSERVED},
+            {k: v for k, v in arrays.items() if k in OBSERVED})
+
+
+def rebuild_model(const, meta: dict, observed=None) -> PosteriorModel:
+    """Inverse of :func:`problem_arrays` + :func:`problem_meta`.
+
+    ``observed`` is the observed_data group; files of release 0.1.0 kept the
+    demonstrations in constant_data, which is read when ``observed`` lacks them.
+    """
+    demo = observed if observed is not None and "demo_states" in observed else const
     if meta.get("format") != FORMAT:
         raise InputError(f"posterior file: unknown format {meta.get('format')!r}; "
                          f"expected {FORMAT!r}")
@@ -81,12 +97,12 @@ def rebuild_model(const, meta: dict) -> PosteriorModel:
     mdp = TabularMDP(p, const["features"].values, discount=pm["discount"],
                      horizon=pm["horizon"], start=start, feature_names=pm["feature_names"],
                      grid_shape=pm.get("grid_shape"))
-    s_cut = np.cumsum(const["demo_state_counts"].values)[:-1]
-    a_cut = np.cumsum(const["demo_action_counts"].values)[:-1]
-    who = (None if "demo_demonstrators" not in const
-           else [str(x) for x in const["demo_demonstrators"].values])
-    demos = Demonstrations.from_arrays(np.split(const["demo_states"].values, s_cut),
-                                       np.split(const["demo_actions"].values, a_cut), who)
+    s_cut = np.cumsum(demo["demo_state_counts"].values)[:-1]
+    a_cut = np.cumsum(demo["demo_action_counts"].values)[:-1]
+    who = (None if "demo_demonstrators" not in demo
+           else [str(x) for x in demo["demo_demonstrators"].values])
+    demos = Demonstrations.from_arrays(np.split(demo["demo_states"].values, s_cut),
+                                       np.split(demo["demo_actions"].values, a_cut), who)
     lik = BoltzmannLikelihood(mdp, demos, rationality=pm["likelihood_rationality"],
                               q_function=pm["q"],
                               tol=pm["tol"], **_solver_settings(pm))

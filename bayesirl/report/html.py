@@ -12,7 +12,7 @@ from html import escape
 
 import numpy as np
 
-from bayesirl.report import maps, plots, suggestions, verdicts
+from bayesirl.report import maps, plots, predictive, suggestions, verdicts
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
 # Stable anchors: other documents and the tests link to these, so renaming one is a break.
@@ -58,7 +58,7 @@ def render_html(report) -> str:
             _nav()]
     body += [_weights(report), _correlations(report), _directions(report),
              _structural(report), _derived(report), _policy_risk(report),
-             _maps(report), suggestions.render(report),
+             _maps(report), predictive.render(report), suggestions.render(report),
              _diagnostics(report), _assumptions(report),
              section("caution", f'<p class="caution">{escape(verdicts.CAUTION)}</p>')]
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"

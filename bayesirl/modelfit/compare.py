@@ -1,0 +1,149 @@
+"""Compare runs on the same demonstrations by leave-one-episode-out predictive accuracy.
+
+The difference between two runs and its standard error are computed from the paired
+per-episode values, ``se = sqrt(E * var(elpd_i^a - elpd_i^b))`` (Vehtari, Gelman & Gabry
+2017, eq. 24; the same formula as ArviZ's ``compare``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.modelfit.loo import K_LIMIT, EpisodeLoo, episode_loo
+
+# A difference within this many standard errors is reported as no clear difference
+# (common practice; the normal approximation behind it is rough with few episodes).
+CLEAR_SE = 2.0
+# Below this many episodes the standard error itself is unreliable (Sivula, Magnusson &
+# Vehtari 2020 discuss small-n LOO comparison; the number 20 is from memory, common practice).
+FEW_EPISODES = 20
+
+
+@dataclass
+class Row:
+    """One run in a comparison: its elpd, and its difference to the best with that
+    difference's standard error (0 for the best)."""
+
+    name: str
+    description: str
+    loo: EpisodeLoo
+    diff: float
+    diff_se: float
+
+
+@dataclass
+class Comparison:
+    """Runs ranked by expected log predictive density (best first), with a conclusion."""
+
+    rows: list[Row]
+    n_episodes: int
+
+    @property
+    def conclusion(self) -> str:
+        """Plain words; never stronger than the difference and its standard error allow."""
+        return conclusion(self)
+
+    def table(self) -> str:
+        """The comparison as a text table followed by the conclusion."""
+        head = (f"{'run':<22}{'elpd':>10}{'se':>8}{'diff':>10}{'diff se':>9}"
+                f"{'k>0.7':>7}  model")
+        lines = [head]
+        for r in self.rows:
+            lines.append(f"{r.name[:21]:<22}{r.loo.elpd:10.2f}{r.loo.se:8.2f}{r.diff:10.2f}"
+                         f"{r.diff_se:9.2f}{len(r.loo.unreliable):7d}  {r.description}")
+        return "\n".join(lines + ["", self.conclusion])
+
+    def __repr__(self) -> str:
+        return self.table()
+
+
+def compare(runs, names=None, *, refit: bool = False) -> Comparison:
+    """Rank ``runs`` (Posterior objects on the same demonstrations) by PSIS-LOO per episode.
+
+    Parameters
+    ----------
+    runs : sequence of Posterior
+        At least two, each fitted to the same demonstrations (InputError otherwise).
+    names : sequence of str, optional
+        Labels for the table (default ``run 1``, ``run 2``, ...).
+    refit : bool
+        Refit exactly the episodes whose Pareto k exceeds 0.7 (one new run each).
+    """
+    runs = list(runs)
+    names = [f"run {i + 1}" for i in range(len(runs))] if names is None else list(names)
+    if len(runs) < 2:
+        raise InputError("compare: give at least two runs")
+    if len(names) != len(runs):
+        raise InputError(f"compare: {len(names)} names for {len(runs)} runs")
+    same_data(runs, names)
+    loos = [episode_loo(r, refit=refit) for r in runs]
+    best = int(np.argmax([x.elpd for x in loos]))
+    rows = []
+    for name, run, x in zip(names, runs, loos, strict=True):
+        d = loos[best].elpd_i - x.elpd_i
+        se = float(np.sqrt(d.size * np.var(d)))
+        rows.append(Row(name, describe(run), x, float(d.sum()), se))
+    rows.sort(key=lambda r: r.diff)
+    return Comparison(rows, int(loos[0].elpd_i.size))
+
+
+def same_data(runs, names) -> None:
+    """InputError unless every run was fitted to the same demonstrations and state space."""
+    first = runs[0].model.likelihood
+    for name, run in zip(names[1:], runs[1:], strict=True):
+        other = run.model.likelihood
+        why = _difference(first, other)
+        if why:
+            raise InputError(f"compare: {name} was fitted to other data than {names[0]} "
+                             f"({why}); LOO comparisons need the same demonstrations")
+
+
+def _difference(a, b) -> str:
+    if a.mdp.n_states != b.mdp.n_states or a.mdp.n_actions != b.mdp.n_actions:
+        return (f"{a.mdp.n_states} states x {a.mdp.n_actions} actions against "
+                f"{b.mdp.n_states} x {b.mdp.n_actions}")
+    da, db = a.demos, b.demos
+    if da.n_episodes != db.n_episodes:
+        return f"{da.n_episodes} episodes against {db.n_episodes}"
+    for e, ((sa, aa), (sb, ab)) in enumerate(zip(da.episodes, db.episodes, strict=True)):
+        if not (np.array_equal(aa, ab) and np.array_equal(sa[:aa.size], sb[:ab.size])):
+            return f"episode {e} differs"
+    return ""
+
+
+def describe(run) -> str:
+    """The model in a few words: demonstrator model, features, pooling, rationality."""
+    model = run.model
+    rat = ("rationality sampled" if model.fixed_rationality is None
+           else f"rationality {model.fixed_rationality:g}")
+    pooling = getattr(model.pooling, "kind", model.pooling)
+    return (f"{model.likelihood.q}, features {','.join(model.feature_names)}, {pooling}, "
+            f"{rat}")
+
+
+def conclusion(c: Comparison) -> str:
+    """Plain-words reading of a comparison."""
+    best, rest = c.rows[0], c.rows[1:]
+    out = []
+    clear = [r for r in rest if r.diff > CLEAR_SE * r.diff_se]
+    unclear = [r for r in rest if r not in clear]
+    if unclear:
+        out.append(f"No clear difference between {best.name} and "
+                   f"{', '.join(r.name for r in unclear)}: the difference in elpd is within "
+                   f"{CLEAR_SE:g} standard errors (a common-practice threshold), so the "
+                   "demonstrations do not tell these models apart.")
+    if clear:
+        out.append(f"{best.name} predicts left-out episodes better than "
+                   f"{', '.join(r.name for r in clear)} (difference more than "
+                   f"{CLEAR_SE:g} standard errors). This ranks predictive accuracy on these "
+                   "demonstrations; it does not make the better model true.")
+    if c.n_episodes < FEW_EPISODES:
+        out.append(f"Only {c.n_episodes} episodes: the standard errors are themselves rough.")
+    shaky = [r.name for r in c.rows if r.loo.unreliable]
+    if shaky:
+        out.append(f"Pareto k > {K_LIMIT:g} for some episodes of {', '.join(shaky)}: their "
+                   "LOO estimates are unreliable; refit them exactly (compare --refit).")
+    return "\n".join(out)
