@@ -18,9 +18,9 @@ from pathlib import Path
 
 import numpy as np
 
+from bayesirl.execution import sample
 from bayesirl.io import read_demonstrations, read_problem
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.execution import sample
 from bayesirl.scenarios.bundled import EXAMPLES
 
 TARGET_RATIO = 3.0  # collinear with dense mass vs no ridge, gradients per effective draw

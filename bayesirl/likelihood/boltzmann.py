@@ -180,7 +180,7 @@ class BoltzmannLikelihood:
         """
         w = self.mdp.check_weights(weights)
         beta = self.rationality if rationality is None else _positive(rationality)
-        log_pi, _ = pointwise.log_policy(self.mdp, self.q, w, beta)
+        log_pi, _ = pointwise.log_policy(self.mdp, self.q_function, w, beta)
         return pointwise.step_values(log_pi, self.demos)
 
     def episode_log_likelihood(self, weights, rationality: float | None = None) -> np.ndarray:

@@ -120,7 +120,7 @@ def describe(run) -> str:
     rat = ("rationality sampled" if model.fixed_rationality is None
            else f"rationality {model.fixed_rationality:g}")
     pooling = getattr(model.pooling, "kind", model.pooling)
-    return (f"{model.likelihood.q}, features {','.join(model.feature_names)}, {pooling}, "
+    return (f"{model.likelihood.q_function}, features {','.join(model.feature_names)}, {pooling}, "
             f"{rat}")
 
 

@@ -11,8 +11,8 @@ from scipy.special import logsumexp
 
 from bayesirl import arviz_compat
 from bayesirl.errors import InputError
+from bayesirl.execution import sample
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.posterior import sample
 
 # Pareto k above which PSIS is unreliable for an episode: 0.7 (Vehtari, Gelman & Gabry
 # 2017, section 2.1; common practice). Newer ArviZ uses min(1 - 1/log10(S), 0.7).
@@ -91,7 +91,7 @@ def _refit_one(posterior, episode: int, options: dict) -> float:
         raise InputError("refit: leaving out the only episode leaves no data")
     rest = [k for k in range(demos.n_episodes) if k != episode]
     settings = {k: v for k, v in lik.__dict__.items()
-                if k in ("rationality", "q", "tol", "gradient_rtol", "max_newton_steps",
+                if k in ("rationality", "q_function", "tol", "gradient_rtol", "max_newton_steps",
                          "max_linear_iterations")}
     without = BoltzmannLikelihood(lik.mdp, demos.subset(rest), **settings)
     held = BoltzmannLikelihood(lik.mdp, demos.subset([episode]), **settings)

@@ -113,7 +113,8 @@ def _policies(posterior, c: int, d: int) -> np.ndarray:
     q = draw_quantities(posterior, c, d)
     beta = q["rationality"]
     names = [k for k in q if k != "rationality"]
-    tables = {k: np.exp(log_policy(lik.mdp, lik.q, np.asarray(q[k]), beta)[0]) for k in names}
+    tables = {k: np.exp(log_policy(lik.mdp, lik.q_function, np.asarray(q[k]), beta)[0])
+              for k in names}
     tables = {k: (v if v.ndim == 3 else v[None]) for k, v in tables.items()}
     if posterior.groups is None:
         return [tables["weights"]] * lik.demos.n_episodes

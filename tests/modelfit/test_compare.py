@@ -24,7 +24,7 @@ SAMPLING = {"chains": 2, "draws": 150, "warmup": 150, "processes": 1, "progress"
 def runs():
     lik = two_feature_likelihood()
     soft = bi.sample(lik, seed=3, **SAMPLING)
-    optimal = bi.sample(bi.BoltzmannLikelihood(lik.mdp, lik.demos, q="optimal"), seed=3,
+    optimal = bi.sample(bi.BoltzmannLikelihood(lik.mdp, lik.demos, q_function="optimal"), seed=3,
                         **SAMPLING)
     return soft, optimal
 

@@ -49,7 +49,7 @@ def test_steps_match_independent_value_iteration_and_sum_to_the_likelihood():
 def test_steps_sum_to_the_likelihood_for_every_model(q, horizon):
     mdp = small_mdp(1, 2, horizon=horizon)
     demos = bi.simulate(mdp, np.array([0.5, 0.2]), episodes=3, length=5, seed=4)
-    lik = bi.BoltzmannLikelihood(mdp, demos, q=q)
+    lik = bi.BoltzmannLikelihood(mdp, demos, q_function=q)
     w = np.array([-0.4, 0.9])
     assert lik.step_log_likelihood(w, 1.3).sum() == pytest.approx(lik.value(w, 1.3), abs=1e-8)
 
@@ -86,7 +86,8 @@ def test_demonstrator_terms_place_each_episode_where_it_belongs():
 @pytest.mark.parametrize("pooling", ["pooled", "partial"])
 def test_log_likelihood_group_round_trips_and_arviz_reads_it(tmp_path, pooling):
     lik = interleaved_likelihood()
-    post = bi.sample(lik, chains=2, draws=60, warmup=60, seed=2, progress=False, processes=1,
+    post = bi.sample(lik, chains=2, draws=60, warmup=60, seed=2, progress=False,
+                     backend=bi.Processes(1),
                      pooling=pooling)
     ll = post.compute_log_likelihood(steps=True)["episodes"]
     assert ll.shape == (2, 60, 6)
@@ -105,6 +106,7 @@ def test_log_likelihood_group_round_trips_and_arviz_reads_it(tmp_path, pooling):
 
 def test_files_without_the_group_still_load(tmp_path):
     lik = interleaved_likelihood()
-    post = bi.sample(lik, chains=1, draws=20, warmup=20, seed=2, progress=False, processes=1)
+    post = bi.sample(lik, chains=1, draws=20, warmup=20, seed=2, progress=False,
+                     backend=bi.Processes(1))
     back = bi.Posterior.load(post.save(tmp_path / "p.nc"))
     assert back.log_likelihood is None

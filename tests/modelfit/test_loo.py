@@ -78,7 +78,7 @@ def test_refit_replaces_the_unreliable_episodes(monkeypatch):
     import bayesirl.modelfit.loo as loo_module
 
     post = bi.sample(two_feature_likelihood(), seed=5, chains=2, draws=80, warmup=80,
-                     processes=1, progress=False)
+                     backend=bi.Processes(1), progress=False)
     plain = episode_loo(post)
     monkeypatch.setattr(loo_module, "K_LIMIT", np.sort(plain.pareto_k)[-3])  # top two
     chosen = [int(e) for e in np.argsort(plain.pareto_k)[-2:]]

@@ -54,7 +54,7 @@ def test_soft_and_optimal_demonstrators_are_told_apart():
         right = wrong = unclear = 0
         for k in range(DATA_SETS // 2):
             demos = simulate_from(mdp, truth, PARK_WEIGHTS, seed=300 + k)
-            fits = [bi.sample(bi.BoltzmannLikelihood(mdp, demos, q=q), seed=k, **SAMPLING)
+            fits = [bi.sample(bi.BoltzmannLikelihood(mdp, demos, q_function=q), seed=k, **SAMPLING)
                     for q in ("soft", "optimal")]
             c = compare(fits, ["soft", "optimal"])
             if c.rows[1].diff <= 2 * c.rows[1].diff_se:
