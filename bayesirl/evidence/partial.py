@@ -172,33 +172,9 @@ class PartialTerm:
                 f"steps={self.steps.source.size}, gaps={len(self.gaps)})")
 
     def _check_possible(self) -> None:
-        """Every piece must have positive probability; the uniform policy has the same
-        support as every soft policy, so checking it once checks all weights."""
-        mdp = self.mdp
-        uniform = np.full((mdp.n_states, mdp.n_actions), 1.0 / mdp.n_actions)
-        logp, _ = step_pass(self.steps, uniform, False)
-        bad = np.flatnonzero(~np.isfinite(logp))
-        if bad.size:
-            i = int(bad[0])
-            how = ("any action" if self.steps.action[i] < 0
-                   else f"action {int(self.steps.action[i])}")
-            raise InputError(
-                f"partial episodes: episode {int(self.steps.episode[i])} step "
-                f"{int(self.steps.time[i]) + 1}: the dynamics cannot go from state "
-                f"{int(self.steps.source[i])} by {how} to state {int(self.steps.target[i])}")
-        for gap in self.gaps:
-            length = gap.actions.size
-            if length * mdp.n_states > MAX_GAP_FLOATS:
-                raise InputError(f"partial episodes: episode {gap.episode} has a gap of "
-                                 f"{length - 1} unrecorded states; at most "
-                                 f"{MAX_GAP_FLOATS // mdp.n_states - 1} fit in memory")
-            if not np.isfinite(gap_pass(mdp.dynamics, gap, lambda t: uniform, False)[0]):
-                where = "the episode's end" if gap.end < 0 else f"state {gap.end}"
-                span = f"{gap.time}..{gap.time + length}"
-                raise InputError(
-                    f"partial episodes: episode {gap.episode} steps {span}: no path of "
-                    f"{length} steps leads from state {gap.start} to {where} with the "
-                    "recorded actions")
+        found = first_impossible(self.mdp, self.steps, self.gaps)
+        if found is not None:
+            raise InputError(f"partial episodes: episode {found[0]} {found[2]}")
 
     # -- evaluation -------------------------------------------------------------------------
     def _pass(self, policy: np.ndarray, counts: bool):
@@ -274,6 +250,39 @@ class PartialTerm:
         """Inverse of :meth:`warm_start_arrays`."""
         self._cache = warm.from_arrays(marginal.new_cache(self.mdp, self._settings), arrays)
         self.n_evaluations = int(arrays["n_evaluations"])
+
+
+def first_impossible(mdp, steps: Steps, gaps: list[Gap]):
+    """``(episode, step, message)`` of the first piece the dynamics forbid, else None.
+
+    ``step`` is the index of the recorded state that cannot be reached (or the episode's
+    length for an impossible end). A soft policy gives every action positive probability,
+    so the uniform policy has the same support as every soft policy: checking it once checks
+    all weights.
+    """
+    uniform = np.full((mdp.n_states, mdp.n_actions), 1.0 / mdp.n_actions)
+    logp, _ = step_pass(steps, uniform, False)
+    bad = np.flatnonzero(~np.isfinite(logp))
+    found = []
+    if bad.size:
+        i = int(bad[0])
+        how = "any action" if steps.action[i] < 0 else f"action {int(steps.action[i])}"
+        found.append((int(steps.episode[i]), int(steps.time[i]) + 1,
+                      f"step {int(steps.time[i]) + 1}: the dynamics cannot go from state "
+                      f"{int(steps.source[i])} by {how} to state {int(steps.target[i])}"))
+    for gap in gaps:
+        length = gap.actions.size
+        if length * mdp.n_states > MAX_GAP_FLOATS:
+            found.append((gap.episode, gap.time + length,
+                          f"steps {gap.time}..{gap.time + length}: a gap of {length - 1} "
+                          f"unrecorded states; at most {MAX_GAP_FLOATS // mdp.n_states - 1} "
+                          "fit in memory"))
+        elif not np.isfinite(gap_pass(mdp.dynamics, gap, lambda t: uniform, False)[0]):
+            where = "the episode's end" if gap.end < 0 else f"state {gap.end}"
+            found.append((gap.episode, gap.time + length,
+                          f"steps {gap.time}..{gap.time + length}: no path of {length} steps "
+                          f"leads from state {gap.start} to {where} with the recorded actions"))
+    return min(found, key=lambda x: x[:2]) if found else None
 
 
 def state_only(states_list: Sequence) -> PartialEpisodes:
