@@ -6,11 +6,12 @@ estimated dynamics) is one new module with a class satisfying :class:`EvidenceTe
 """
 
 from bayesirl.evidence.boltzmann import BoltzmannTerm
+from bayesirl.evidence.comparisons import ComparisonTerm, discounted_features
 from bayesirl.evidence.groups import demonstrator_evidence, pooled_evidence, weights_name
 from bayesirl.evidence.model import Evidence
 from bayesirl.evidence.partial import PartialEpisodes, PartialTerm, state_only
 from bayesirl.evidence.term import EvidenceTerm, TermValue
 
-__all__ = ["BoltzmannTerm", "Evidence", "EvidenceTerm", "PartialEpisodes", "PartialTerm",
-           "TermValue", "demonstrator_evidence",
+__all__ = ["BoltzmannTerm", "ComparisonTerm", "Evidence", "EvidenceTerm", "PartialEpisodes",
+           "PartialTerm", "TermValue", "demonstrator_evidence", "discounted_features",
            "pooled_evidence", "state_only", "weights_name"]
