@@ -204,6 +204,8 @@ def _other_parsers(sub) -> None:
                "bayesirl check park.toml walks.csv", _check)
     chk.add_argument("problem", help="problem file (TOML)")
     chk.add_argument("demonstrations", nargs="?", help="demonstration file (.csv or .jsonl)")
+    chk.add_argument("--comparisons", metavar="FILE",
+                     help="comparison answers between episodes (.jsonl) to check too")
     ex = _add(sub, "example", "write a bundled example's files into a folder and run it end to "
               "end into FOLDER/run", "bayesirl example park park-demo   (or: bayesirl example "
               "--list)", _example)

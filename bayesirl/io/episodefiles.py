@@ -59,8 +59,9 @@ def read_episodes(path, problem) -> EpisodeFile:
     else:
         raise InputError(f"{path}: unknown episode format {suffix!r}; expected .csv, .jsonl or "
                          ".ndjson")
-    for ep in eps:
-        _check(path, ep, problem)
+    if suffix in CSV_SUFFIXES:
+        for ep in eps:
+            check_episode(path, ep, problem)
     arrays = {e.name: (np.asarray(e.states, dtype=np.int64), np.asarray(e.actions, np.int64))
               for e in eps}
     full = [e.name for e in eps if min(e.states) >= 0 and min(e.actions) >= 0]
@@ -72,7 +73,8 @@ def read_episodes(path, problem) -> EpisodeFile:
     return EpisodeFile([e.name for e in eps], demos, full, partial, part, arrays)
 
 
-def _check(path, ep: _Ep, problem) -> None:
+def check_episode(path, ep: _Ep, problem) -> None:
+    """Horizon, first state and every recorded piece against the dynamics, with the line."""
     mdp = problem.mdp
     if not ep.actions:
         raise InputError(f"{path} line {ep.lines[0]}: episode {ep.name!r} has no steps")
@@ -149,38 +151,47 @@ def _csv_state(path, line, problem, get) -> int:
 
 
 def _jsonl(path: Path, text: str, problem) -> list[_Ep]:
-    eps, names = [], set()
+    eps: list[_Ep] = []
+    for line, obj in json_lines(path, text):
+        eps.append(episode_line(path, line, obj, problem, {e.name for e in eps}, len(eps)))
+    return eps
+
+
+def json_lines(path: Path, text: str):
+    """``(line number, object)`` of every non-blank line, each checked to be JSON."""
     for line, raw in enumerate(text.splitlines(), start=1):
         if not raw.strip():
             continue
         try:
-            obj = json.loads(raw)
+            yield line, json.loads(raw)
         except (json.JSONDecodeError, RecursionError):
-            raise InputError(f"{path} line {line}: not a valid JSON episode") from None
-        if not isinstance(obj, dict) or set(obj) - {"episode", "states", "cells", "actions"} \
-                or ("states" in obj) == ("cells" in obj) or "actions" not in obj:
-            raise InputError(f"{path} line {line}: expected an object with episode (optional), "
-                             "actions and exactly one of states or cells")
-        key = "states" if "states" in obj else "cells"
-        if not isinstance(obj[key], list) or not isinstance(obj["actions"], list):
-            raise InputError(f"{path} line {line}: {key} and actions must be lists")
-        name = obj.get("episode", len(eps))
-        if isinstance(name, bool) or not isinstance(name, str | int) or str(name) in names:
-            raise InputError(f"{path} line {line}: episode id {name!r} is not a new string "
-                             "or whole number")
-        ep = _Ep(str(name))
-        names.add(ep.name)
-        ep.states = [_json_state(path, line, problem, key, x) for x in obj[key]]
-        ep.actions = [-1 if a is None else _action(path, line, problem, a)
-                      for a in obj["actions"]]
-        if len(ep.states) not in (len(ep.actions), len(ep.actions) + 1):
-            raise InputError(f"{path} line {line}: {len(ep.actions)} actions and "
-                             f"{len(ep.states)} {key}; expected as many {key} or one more")
-        if len(ep.states) == len(ep.actions):
-            ep.states.append(-1)
-        ep.lines = [line] * (len(ep.states) + 1)
-        eps.append(ep)
-    return eps
+            raise InputError(f"{path} line {line}: not a valid JSON object") from None
+
+
+def episode_line(path, line, obj, problem, taken, k) -> _Ep:
+    """One JSON Lines episode (states or cells with nulls, actions with nulls), checked."""
+    if not isinstance(obj, dict) or set(obj) - {"episode", "states", "cells", "actions"} \
+            or ("states" in obj) == ("cells" in obj) or "actions" not in obj:
+        raise InputError(f"{path} line {line}: expected an object with episode (optional), "
+                         "actions and exactly one of states or cells")
+    key = "states" if "states" in obj else "cells"
+    if not isinstance(obj[key], list) or not isinstance(obj["actions"], list):
+        raise InputError(f"{path} line {line}: {key} and actions must be lists")
+    name = obj.get("episode", k)
+    if isinstance(name, bool) or not isinstance(name, str | int) or str(name) in taken:
+        raise InputError(f"{path} line {line}: episode id {name!r} is not a new string "
+                         "or whole number")
+    ep = _Ep(str(name))
+    ep.states = [_json_state(path, line, problem, key, x) for x in obj[key]]
+    ep.actions = [-1 if a is None else _action(path, line, problem, a) for a in obj["actions"]]
+    if len(ep.states) not in (len(ep.actions), len(ep.actions) + 1):
+        raise InputError(f"{path} line {line}: {len(ep.actions)} actions and "
+                         f"{len(ep.states)} {key}; expected as many {key} or one more")
+    if len(ep.states) == len(ep.actions):
+        ep.states.append(-1)
+    ep.lines = [line] * (len(ep.states) + 1)
+    check_episode(path, ep, problem)
+    return ep
 
 
 def _json_state(path, line, problem, key, x) -> int:

@@ -1,0 +1,52 @@
+"""``check`` (and later ``fit``) for the further kinds of evidence: episodes with unrecorded
+actions or states, and comparison files. Kept apart from the demonstration path so that files
+without blanks read exactly as before."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.io import read_demonstrations
+
+
+def read_any_episodes(path, problem):
+    """``(Demonstrations or None, EpisodeFile or None)``: a demonstration file as before, or,
+    if it has unrecorded actions or states, the episode file it is.
+
+    When both readers refuse a file, the error shown is the episode reader's if the
+    demonstration reader stopped at a blank (so the real problem further on is named), else
+    the demonstration reader's (e.g. a demonstrator column, which only it reads).
+    """
+    from bayesirl.io.episodefiles import read_episodes
+
+    try:
+        return read_demonstrations(path, problem), None
+    except InputError as first:
+        at_blank = "''" in str(first) or "empty action" in str(first)
+        try:
+            found = read_episodes(path, problem)
+        except InputError as second:
+            raise (second if at_blank else first) from None
+        if found.partial is None:
+            raise first from None
+        return found.demonstrations, found
+
+
+def episode_lines(path, found) -> list[str]:
+    """What ``check`` prints about an episode file with unrecorded parts."""
+    part = found.partial
+    n_a = sum(int(np.sum(a < 0)) for _, a in part.episodes)
+    n_s = sum(int(np.sum(s[:-1] < 0)) for s, _ in part.episodes)
+    return [f"{path}: ok - {len(found.names)} episodes: {len(found.complete)} fully recorded, "
+            f"{len(found.incomplete)} with unrecorded parts ({n_a} actions and {n_s} states "
+            "not recorded; their likelihood sums over what is missing)"]
+
+
+def comparison_lines(path, problem) -> list[str]:
+    """Read a comparison file and say what it holds."""
+    from bayesirl.io.comparisonfiles import read_comparisons
+
+    found = read_comparisons(path, problem)
+    return [f"{path}: ok - {len(found.pairs)} answers comparing {len(found.episodes)} "
+            "episodes (Bradley-Terry choice on discounted returns)"]
