@@ -147,6 +147,9 @@ def _fit_parser(sub) -> None:
     fit.add_argument("--out", default="run", help="run folder to create (default: run); it is "
                      "built beside it and renamed, never left half-written")
     fit.add_argument("--force", action="store_true", help="replace an existing run folder")
+    fit.add_argument("--comparisons", metavar="FILE",
+                     help="answers comparing episodes (.jsonl; see the README), used as "
+                          "further evidence with the judge's rationality fixed at 1")
     fit.add_argument("--resume", metavar="RUNDIR", help="continue an interrupted run folder to "
                      "its requested draws, e.g. bayesirl fit --resume park-run")
     fit.add_argument("--level", type=_level, default=0.9,

@@ -50,3 +50,17 @@ def comparison_lines(path, problem) -> list[str]:
     found = read_comparisons(path, problem)
     return [f"{path}: ok - {len(found.pairs)} answers comparing {len(found.episodes)} "
             "episodes (Bradley-Terry choice on discounted returns)"]
+
+
+def further_evidence(problem, found, comparisons_path) -> tuple:
+    """The evidence terms beside the demonstrations: partial episodes, comparisons."""
+    from bayesirl.evidence.partial import PartialTerm
+    from bayesirl.io.comparisonfiles import read_comparisons
+
+    terms = []
+    if found is not None and found.partial is not None:
+        solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
+        terms.append(PartialTerm(problem.mdp, found.partial, **solver))
+    if comparisons_path is not None:
+        terms.append(read_comparisons(comparisons_path, problem).term(problem.mdp, 1.0))
+    return tuple(terms)

@@ -182,7 +182,8 @@ class PartialTerm:
         mdp = self.mdp
         finite = mdp.horizon is not None
         per_episode = np.zeros(self.episodes.n_episodes)
-        logp, post = step_pass(self.steps, policy, finite)
+        with np.errstate(invalid="ignore"):  # 0/0 only where the piece is impossible
+            logp, post = step_pass(self.steps, policy, finite)
         np.add.at(per_episode, self.steps.episode, logp)
         shape = (mdp.horizon, mdp.n_states * mdp.n_actions) if finite else (
             mdp.n_states * mdp.n_actions,)
@@ -220,6 +221,11 @@ class PartialTerm:
         logp = float(per_episode.sum())
         if not gradient:
             return TermValue(logp, {})
+        if not np.isfinite(logp):
+            # At extreme weights a policy entry can underflow to 0 and leave a recorded piece
+            # no probability: a rejected point (its true likelihood is below exp(-700)).
+            return TermValue(-np.inf, {self.weights_name: np.full(w.size, np.nan),
+                                       self.rationality_name: np.nan})
         g = marginal.gradient(self.mdp, self._cache, solved, n_sa, w, beta, self.work)
         return TermValue(logp, {self.weights_name: g, self.rationality_name: float(w @ g)})
 

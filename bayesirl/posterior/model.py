@@ -13,7 +13,7 @@ import math
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.evidence import pooled_evidence
+from bayesirl.evidence import BoltzmannTerm, Evidence, pooled_evidence
 from bayesirl.priors import DEFAULT_SCALE, LogNormal, Normal, from_json, to_json
 
 _LOG_MAX = math.log(np.finfo(float).max)
@@ -30,14 +30,24 @@ class PosteriorModel:
         None or a number: fixed (None uses ``likelihood.rationality``). A prior: sampled.
     pin : dict {feature name: value} or None
         Weights held fixed. Required (one weight) when the rationality is sampled.
+    extra : sequence of evidence terms
+        Evidence beside the demonstrations (``bayesirl.evidence.PartialTerm``,
+        ``ComparisonTerm``), each reading ``"weights"`` and perhaps ``"rationality"``.
     """
 
     pooling = "pooled"
 
-    def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
+    def __init__(self, likelihood, prior=None, rationality=None, pin=None, *,
+                 extra=()) -> None:
         self.likelihood = likelihood
-        # prior + sum of evidence terms; here the one term of every episode together
-        self.evidence = pooled_evidence(likelihood)
+        # prior + sum of evidence terms: the one term of every episode together, then any
+        # further evidence (its own keys; the demonstrations' term then needs one too)
+        self.extra = tuple(extra)
+        self.evidence = (pooled_evidence(likelihood) if not self.extra else
+                         Evidence([BoltzmannTerm(likelihood, key="demos"), *self.extra]))
+        if not set(self.evidence.reads) <= {"weights", "rationality"}:
+            raise InputError(f"extra: terms may read weights and rationality only; got "
+                             f"{list(self.evidence.reads)}")
         names = likelihood.mdp.feature_names
         self.feature_names = names
         self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior

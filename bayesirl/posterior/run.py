@@ -85,6 +85,7 @@ def sample(
     resume: bool = False,
     cluster=None,
     pooling=None,
+    evidence=(),
 ):
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
@@ -133,6 +134,10 @@ def sample(
         share a reward; default ``"pooled"``: one reward for every episode. ``"partial"``:
         each demonstrator's weights around a population mean with a sampled per-feature
         spread (see :class:`bayesirl.posterior.groups.Pooling`).
+    evidence : sequence of evidence terms, optional
+        Evidence beside the demonstrations: ``bayesirl.evidence.PartialTerm`` (episodes with
+        unrecorded actions or states), ``ComparisonTerm`` (answers between episodes), each
+        with a fixed judge rationality. Pooled only.
 
     Returns
     -------
@@ -157,7 +162,7 @@ def sample(
         dask_cluster.check_arguments(cluster, checkpoint, resume, processes)
     if resume and checkpoint is None:
         raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
-    model = make_model(likelihood, prior, rationality, pin, pooling)
+    model = make_model(likelihood, prior, rationality, pin, pooling, extra=evidence)
     settings = {"draws": int(draws), "warmup": int(warmup), "method": method,
                 "dense_mass": bool(dense_mass), "target_accept": target_accept,
                 "max_depth": int(max_depth)}
