@@ -152,6 +152,8 @@ def render(args, out: RunFolder, posterior, summary: dict, action_names=None) ->
     except KeyboardInterrupt:
         acknowledge()
         return _report_skipped(out)
+    for line in evidence_files.contribution_lines(posterior):
+        say(args, line)
     made = "report.html" if out.report.exists() else "demonstrators.png"  # separate rewards
     say(args, f"wrote {out.root}/posterior.nc, summary.json and {made}")
     return 0

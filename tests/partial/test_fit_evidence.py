@@ -16,6 +16,7 @@ from cli.helpers import TINY_TOML
 
 import bayesirl as bi
 from bayesirl.cli import main
+from bayesirl.commands.evidence_files import contribution_lines
 from bayesirl.commands.fit import _load
 from bayesirl.errors import InputError
 from bayesirl.posterior import checkpoint
@@ -48,6 +49,12 @@ def test_posterior_file_keeps_the_further_evidence(files):
     assert got[0] == want[0] and np.array_equal(got[1], want[1])
     without = PosteriorModel(lik, problem.prior).logdensity_and_grad(THETA)
     assert abs(without[0] - want[0]) > 1.0  # negative control: the evidence counts
+    lines = contribution_lines(back)
+    assert [line.split(":")[0].strip() for line in lines[2:]] == [
+        "fully recorded episodes", "episodes with unrecorded parts", "comparisons"]
+    plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5, processes=1,
+                      progress=False)
+    assert contribution_lines(plain) == []  # one kind of evidence: nothing to split
 
 
 def test_fingerprint_covers_the_further_evidence(files):
