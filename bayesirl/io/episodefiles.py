@@ -202,3 +202,23 @@ def _json_state(path, line, problem, key, x) -> int:
             raise InputError(f"{path} line {line}: cell {x!r} is not a [row, col] pair or null")
         return _state(path, line, problem, row=x[0], col=x[1])
     return _state(path, line, problem, x)
+
+
+def write_episodes(path, episodes: dict, problem) -> Path:
+    """Write ``{id: (states, actions)}`` (-1 = not recorded) as CSV with blanks, cells on a
+    map; the inverse of :func:`read_episodes` for CSV."""
+    from bayesirl.files import write_text
+
+    grid = problem.mdp.grid_shape
+    out = io.StringIO()
+    w = csv.writer(out, lineterminator="\n")
+    w.writerow(["episode", "step", "row", "col", "action"] if grid
+               else ["episode", "step", "state", "action"])
+    for name, (states, actions) in episodes.items():
+        for t, s in enumerate(states):
+            where = ([""] * (2 if grid else 1) if s < 0 else
+                     list(divmod(int(s), grid[1])) if grid else [int(s)])
+            act = (problem.action_label(int(actions[t])) if t < len(actions) and actions[t] >= 0
+                   else "")
+            w.writerow([name, t, *where, act])
+    return write_text(Path(path), out.getvalue())
