@@ -145,3 +145,71 @@ def gap_pass_ref(p_dense: np.ndarray, gap: Gap, policy_at):
     out = [(gap.time + k, alphas[k][:, None] * pims[k]
             * np.einsum("sat,t->sa", p_dense, betas[k + 1]) / total) for k in range(length)]
     return float(np.log(total)), out
+
+
+# Gaps done together hold (gaps x states x actions) floats per step: at most this many.
+BATCH_FLOATS = 4_000_000
+
+
+def gap_batch_pass(dyn, gaps: list[Gap], policy: np.ndarray, counts: bool = True):
+    """:func:`gap_pass` for many gaps of a stationary policy at once.
+
+    Gaps of equal length go through the forward and backward passes together, as
+    ``(gaps, S)`` arrays multiplied by the transition matrix (one sparse product per step
+    instead of one per gap and step). Returns each gap's log-probability and the sum of
+    their expected step counts ``(S, A)`` (zeros unless ``counts``).
+    """
+    n_s, n_a = dyn.n_states, dyn.n_actions
+    logp = np.empty(len(gaps))
+    total = np.zeros((n_s, n_a))
+    lengths = np.array([g.actions.size for g in gaps], dtype=np.int64)
+    chunk = max(1, BATCH_FLOATS // (n_s * n_a))
+    for length in np.unique(lengths):
+        idx = np.flatnonzero(lengths == length)
+        for part in np.array_split(idx, -(-idx.size // chunk)):
+            lp, n = _batch(dyn, [gaps[i] for i in part], policy, counts)
+            logp[part] = lp
+            total += n
+    return logp, total
+
+
+def _batch(dyn, gaps: list[Gap], policy: np.ndarray, counts: bool):
+    n_s, n_a = dyn.n_states, dyn.n_actions
+    g, length = len(gaps), gaps[0].actions.size
+    acts = np.stack([gap.actions for gap in gaps])  # (G, L)
+    ends = np.array([gap.end for gap in gaps])
+    rows = np.arange(g)
+    alpha = np.zeros((g, n_s))
+    alpha[rows, [gap.start for gap in gaps]] = 1.0
+    alphas, masks, scales = np.empty((length, g, n_s)), [], np.empty((length, g))
+    for k in range(length):
+        alphas[k] = alpha
+        mask = np.ones((g, n_a))
+        rec = acts[:, k] >= 0
+        mask[rec] = np.arange(n_a)[None, :] == acts[rec, k][:, None]
+        masks.append(mask)
+        joint = alpha[:, :, None] * policy[None] * mask[:, None, :]
+        raw = np.asarray(dyn.by_state.T @ joint.reshape(g, -1).T).T  # (G, S)
+        if k == length - 1:
+            closed = ends >= 0
+            keep = raw[closed, ends[closed]]
+            raw[closed] = 0.0
+            raw[closed, ends[closed]] = keep
+        scales[k] = raw.sum(axis=1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            alpha = raw / scales[k][:, None]
+    with np.errstate(divide="ignore"):
+        logp = np.log(scales).sum(axis=0)
+    total = np.zeros((n_s, n_a))
+    if not counts or not np.all(np.isfinite(logp)):
+        return logp, total
+    back = np.ones((g, n_s))
+    closed = ends >= 0
+    back[closed] = 0.0
+    back[closed, ends[closed]] = 1.0
+    for k in range(length - 1, -1, -1):
+        nxt = np.asarray(dyn.by_state @ back.T).T.reshape(g, n_s, n_a)
+        joint = policy[None] * masks[k][:, None, :] * nxt / scales[k][:, None, None]
+        total += np.einsum("gs,gsa->sa", alphas[k], joint)
+        back = joint.sum(axis=2)
+    return logp, total

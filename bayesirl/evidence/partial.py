@@ -22,7 +22,14 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.hidden import MAX_GAP_FLOATS, Gap, Steps, gap_pass, step_pass
+from bayesirl.evidence.hidden import (
+    MAX_GAP_FLOATS,
+    Gap,
+    Steps,
+    gap_batch_pass,
+    gap_pass,
+    step_pass,
+)
 from bayesirl.evidence.term import TermValue
 from bayesirl.likelihood import marginal, soft, warm
 
@@ -194,6 +201,12 @@ class PartialTerm:
                 np.add.at(n_sa, (self.steps.time[:, None], rows), post)
             else:
                 np.add.at(n_sa, rows, post)
+        if not finite and self.gaps:  # stationary policy: equal-length gaps together
+            lp, n_gap = gap_batch_pass(mdp.dynamics, self.gaps, policy, counts)
+            np.add.at(per_episode, [g.episode for g in self.gaps], lp)
+            if counts:
+                n_sa += n_gap.ravel()
+            return per_episode, n_sa
         policy_at = (lambda t: policy[t]) if finite else (lambda t: policy)
         for gap in self.gaps:
             lp, parts = gap_pass(mdp.dynamics, gap, policy_at, counts)

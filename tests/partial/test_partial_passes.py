@@ -90,3 +90,28 @@ def test_refuses_an_impossible_gap():
                                          "from state 0 to state 0"):
         PartialTerm(mdp, PartialEpisodes([[0, None, 0]], [[None, None]]))
     PartialTerm(mdp, PartialEpisodes([[0, None, 2]], [[None, None]]))  # control: possible
+
+
+def test_batched_gaps_equal_one_gap_at_a_time(monkeypatch):
+    """The batched pass (equal-length gaps together, in chunks) against :func:`gap_pass`."""
+    from bayesirl.evidence import hidden
+
+    mdp = _sparse_mdp()
+    pol = np.random.default_rng(1).dirichlet(np.ones(mdp.n_actions), size=mdp.n_states)
+    demos = bi.simulate(mdp, W, episodes=9, length=10, seed=8)
+    gaps = []
+    for k, (s, a) in enumerate(demos.episodes):
+        length = 2 + k % 3
+        acts = np.where(np.arange(length) % 2 == 0, -1, a[:length])
+        end = int(s[length]) if k % 4 else -1
+        gaps.append(Gap(k, 0, int(s[0]), acts, end))
+    monkeypatch.setattr(hidden, "BATCH_FLOATS", 2 * mdp.n_states * mdp.n_actions)  # chunks
+    logp, total = hidden.gap_batch_pass(mdp.dynamics, gaps, pol)
+    want_total = np.zeros_like(total)
+    for i, gap in enumerate(gaps):
+        lp, parts = gap_pass(mdp.dynamics, gap, lambda t: pol)
+        assert logp[i] == pytest.approx(lp, abs=1e-12)
+        for _, n in parts:
+            want_total += n
+    assert np.allclose(total, want_total, rtol=0, atol=1e-12)
+    assert total.sum() == pytest.approx(sum(g.actions.size for g in gaps), abs=1e-10)
