@@ -87,3 +87,12 @@ def test_fit_with_comparisons_from_the_command_line(files, capsys):
     code = main(["fit", "--resume", str(out), "--comparisons", str(files / "c.jsonl")])
     assert code == 2 and "takes no problem, demonstration or comparison files" in (
         capsys.readouterr().err)
+
+
+def test_partial_episodes_need_the_soft_demonstrator(files):
+    text = TINY_TOML.replace("discount = 0.9", "discount = 0.9\ndemonstrator = \"optimal\"")
+    (files / "p.toml").write_text(text)
+    with pytest.raises(InputError, match="soft demonstrator only"):
+        _load(files / "p.toml", files / "e.csv")
+    (files / "full.csv").write_text(CSV.split("walk,0")[0])  # control: complete walks only
+    assert _load(files / "p.toml", files / "full.csv")[2] == ()
