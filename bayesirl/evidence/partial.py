@@ -266,8 +266,12 @@ class PartialTerm:
         return out
 
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
-        """Inverse of :meth:`warm_start_arrays`."""
-        self._cache = warm.from_arrays(marginal.new_cache(self.mdp, self._settings), arrays)
+        """Inverse of :meth:`warm_start_arrays` (no arrays: start cold)."""
+        fresh = marginal.new_cache(self.mdp, self._settings)
+        if "n_evaluations" not in arrays:
+            self._cache = fresh
+            return
+        self._cache = warm.from_arrays(fresh, arrays)
         self.n_evaluations = int(arrays["n_evaluations"])
 
 
