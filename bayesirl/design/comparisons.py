@@ -88,3 +88,25 @@ def comparison_gains_ref(draws, differences, rationality: float = 1.0) -> np.nda
         ratio = joint / (marg[None, :] / w.shape[0])
         out[k] = float(np.sum(joint[keep] * np.log(ratio[keep])))
     return out
+
+
+def pairs_from_draws(mdp, draws, n_pairs: int, length: int, seed: int = 0):
+    """Candidate questions from the posterior: episodes simulated from the soft policies of
+    randomly chosen draws (one episode per draw), paired up two by two.
+
+    Returns ``(episodes, differences)``: ``2 * n_pairs`` ``(states, actions)`` episodes and,
+    per pair, the first's discounted feature sum minus the second's (for
+    :func:`comparison_gains`).
+    """
+    from bayesirl.evidence.comparisons import discounted_features
+    from bayesirl.model import simulate
+
+    w = np.asarray(draws, dtype=np.float64)
+    rng = np.random.default_rng(seed)
+    picks = rng.choice(w.shape[0], size=2 * n_pairs, replace=w.shape[0] < 2 * n_pairs)
+    episodes = []
+    for k, i in enumerate(picks):
+        demos = simulate(mdp, w[i], episodes=1, length=length, seed=int(seed * 100_003 + k))
+        episodes.append(demos.episodes[0])
+    phi = np.array([discounted_features(mdp, s, a) for s, a in episodes])
+    return episodes, phi[0::2] - phi[1::2]

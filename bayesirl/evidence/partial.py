@@ -156,7 +156,8 @@ class PartialTerm:
     key, weights, rationality : str
         The term's key and the names of the quantities it reads.
     tol, gradient_rtol : float
-        Tolerances of the soft Bellman and adjoint solves (as for BoltzmannLikelihood).
+        Tolerances of the soft Bellman and adjoint solves (as for BoltzmannLikelihood);
+        kept in ``settings``.
     """
 
     def __init__(self, mdp, episodes: PartialEpisodes, key: str = "partial",
@@ -168,9 +169,9 @@ class PartialTerm:
         self.weights_name, self.rationality_name = weights, rationality
         self.reads = (weights, rationality)
         self.steps, self.gaps = episodes.pieces(mdp)
-        self._settings = {"tol": float(tol), "gradient_rtol": float(gradient_rtol)}
+        self.settings = {"tol": float(tol), "gradient_rtol": float(gradient_rtol)}
         self._check_possible()
-        self._cache = marginal.new_cache(mdp, self._settings)
+        self._cache = marginal.new_cache(mdp, self.settings)
         self.n_evaluations = 0
         self.work = soft.new_work()
 
@@ -267,7 +268,7 @@ class PartialTerm:
 
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
         """Inverse of :meth:`warm_start_arrays` (no arrays: start cold)."""
-        fresh = marginal.new_cache(self.mdp, self._settings)
+        fresh = marginal.new_cache(self.mdp, self.settings)
         if "n_evaluations" not in arrays:
             self._cache = fresh
             return

@@ -21,7 +21,7 @@ def term_record(term) -> tuple[dict[str, np.ndarray], dict]:
         arrays = {"states": np.concatenate([s for s, _ in eps]),
                   "actions": np.concatenate([a for _, a in eps]),
                   "lengths": np.asarray([a.size for _, a in eps], dtype=np.int64)}
-        meta = {"kind": "partial", "key": term.key, **term._settings}
+        meta = {"kind": "partial", "key": term.key, **term.settings}
         return arrays, meta
     if isinstance(term, ComparisonTerm):
         if term.fixed is None:

@@ -40,3 +40,22 @@ def test_uninformative_questions_gain_nothing_and_rank_last():
     assert list(got.order())[-1] == 0
     same = comparison_gains(np.tile([0.5, -0.2], (50, 1)), diffs)  # every draw the same
     assert np.allclose(same.gain, 0.0, atol=1e-15)
+
+
+def test_pairs_from_posterior_draws():
+    from posterior.problems import small_mdp
+
+    from bayesirl.design.comparisons import pairs_from_draws
+    from bayesirl.evidence.comparisons import discounted_features
+
+    mdp = small_mdp(0, 2)
+    draws = np.random.default_rng(2).normal(size=(30, 2))
+    eps, diffs = pairs_from_draws(mdp, draws, n_pairs=6, length=5, seed=3)
+    assert len(eps) == 12 and diffs.shape == (6, 2)
+    want = discounted_features(mdp, *eps[2]) - discounted_features(mdp, *eps[3])
+    assert np.array_equal(diffs[1], want)
+    again = pairs_from_draws(mdp, draws, n_pairs=6, length=5, seed=3)[1]
+    assert np.array_equal(diffs, again)  # seeded
+    assert not np.array_equal(diffs, pairs_from_draws(mdp, draws, 6, 5, seed=4)[1])
+    gains = comparison_gains(draws, diffs)
+    assert np.all(gains.gain >= 0) and gains.order().size == 6
