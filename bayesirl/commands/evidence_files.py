@@ -23,7 +23,8 @@ def read_any_episodes(path, problem):
     try:
         return read_demonstrations(path, problem), None
     except InputError as first:
-        at_blank = "''" in str(first) or "empty action" in str(first)
+        msg = str(first)  # stopped at a blank CSV field or a JSON null?
+        at_blank = "''" in msg or "empty action" in msg or " None " in msg
         try:
             found = read_episodes(path, problem)
         except InputError as second:

@@ -63,3 +63,17 @@ def test_bad_comparison_files_name_line_and_value(tmp_path, capsys):
     gap = "episode,step,row,col,action\nw,0,0,0,right\nw,1,,,\nw,2,9,2,\n"
     code, _, err = _run(tmp_path, capsys, {"e.csv": gap}, "e.csv")
     assert code == 2 and "e.csv line 4: cell (row=9, col=2) is off the map" in err, err
+
+
+def test_nulls_in_json_lines_are_unrecorded_parts(tmp_path, capsys):
+    """Formerly refused as bad input (tests/cli/test_hostile.py); now what was not recorded.
+    The hostile-input file's first episode, (0,0) --right--> (0,1), is possible."""
+    for episode in ('{"states": [0, null], "actions": ["right"]}',
+                    '{"states": [0, 1], "actions": [null]}'):
+        code, out, err = _run(tmp_path, capsys, {"w.jsonl": episode + "\n"}, "w.jsonl")
+        assert code == 0, err
+        assert "0 fully recorded, 1 with unrecorded parts" in out
+    # negative control: a null where a number is required (the first state) is still refused
+    code, _, err = _run(tmp_path, capsys, {"w.jsonl": '{"states": [null, 1], "actions": '
+                                                      '["right"]}\n'}, "w.jsonl")
+    assert code == 2 and "the first state is not recorded" in err
