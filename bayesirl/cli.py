@@ -158,6 +158,9 @@ def _fit_parser(sub) -> None:
     fit.add_argument("--out", default="run", help="run folder to create (default: run); it is "
                      "built beside it and renamed, never left half-written")
     fit.add_argument("--force", action="store_true", help="replace an existing run folder")
+    fit.add_argument("--comparisons", metavar="FILE",
+                     help="answers comparing episodes (.jsonl; see the README), used as "
+                          "further evidence with the judge's rationality fixed at 1")
     fit.add_argument("--resume", metavar="RUNDIR", help="continue an interrupted run folder to "
                      "its requested draws, e.g. bayesirl fit --resume park-run")
     fit.add_argument("--level", type=_level,
@@ -215,6 +218,8 @@ def _other_parsers(sub) -> None:
                "bayesirl check park.toml walks.csv", _check)
     chk.add_argument("problem", help="problem file (TOML)")
     chk.add_argument("demonstrations", nargs="?", help="demonstration file (.csv or .jsonl)")
+    chk.add_argument("--comparisons", metavar="FILE",
+                     help="comparison answers between episodes (.jsonl) to check too")
     ex = _add(sub, "example", "write a bundled example's files into a folder and run it end to "
               "end into FOLDER/run", "bayesirl example park park-demo   (or: bayesirl example "
               "--list)", _example)

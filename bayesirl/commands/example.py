@@ -35,8 +35,10 @@ def example_command(args, run_fit) -> int:
         raise InputError(f"{folder / 'run'}: already exists; add --force to replace it, or "
                          "choose another folder")
     check_target(folder / "run", args.force)  # before any file is written
-    problem, demos = _write_example(EXAMPLES[args.name], folder)
+    problem, demos, *more = _write_example(EXAMPLES[args.name], folder)
     argv = ["fit", str(problem), str(demos), "--out", str(folder / "run")]
+    if more:  # a comparison file
+        argv += ["--comparisons", str(more[0])]
     if args.force:
         argv.append("--force")
     if args.quiet:
@@ -63,10 +65,10 @@ def _same(mine: Path, fresh: Path) -> bool:
     return mine.read_bytes() == fresh.read_bytes()
 
 
-def _write_example(example, folder: Path) -> tuple[Path, Path]:
+def _write_example(example, folder: Path) -> tuple[Path, ...]:
     """Write the example's files into ``folder``; a different file of that name is refused."""
     with tempfile.TemporaryDirectory() as tmp:
-        problem, demos = example.write(Path(tmp))
+        inputs = example.write(Path(tmp))
         fresh = sorted(Path(tmp).iterdir())
         for path in fresh:
             mine = folder / path.name
@@ -77,4 +79,4 @@ def _write_example(example, folder: Path) -> tuple[Path, Path]:
         for path in fresh:
             with atomic_target(folder / path.name) as target:
                 shutil.copyfile(path, target)
-    return folder / problem.name, folder / demos.name
+    return tuple(folder / p.name for p in inputs)

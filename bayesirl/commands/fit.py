@@ -8,7 +8,7 @@ from pathlib import Path
 
 import bayesirl
 from bayesirl import arviz_compat
-from bayesirl.commands import mass
+from bayesirl.commands import evidence_files, mass
 from bayesirl.commands.runs import (
     inputs_record,
     report_choice,
@@ -20,7 +20,7 @@ from bayesirl.commands.runs import (
 from bayesirl.commands.signals import acknowledge, held
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
-from bayesirl.io import RunFolder, read_demonstrations, read_problem
+from bayesirl.io import RunFolder, read_problem
 from bayesirl.io.runfolder import Staging, check_target
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.resources import check_sampling
@@ -30,29 +30,34 @@ EXIT_INTERRUPTED = 130
 OVERRIDES = ("chains", "draws", "warmup", "seed")
 
 
-def _load(problem_path, demos_path):
+def _load(problem_path, demos_path, comparisons_path=None):
+    """``(problem, likelihood, further evidence terms)`` from the input files."""
     problem = read_problem(problem_path)
-    demos = read_demonstrations(demos_path, problem)
+    demos, partial = evidence_files.read_any_episodes(demos_path, problem)
+    if demos is None:
+        raise InputError(f"{demos_path}: every episode has an unrecorded action or state; fit "
+                         "needs at least one fully recorded episode for now")
     beta = problem.rationality if isinstance(problem.rationality, float) else 1.0
-    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta, q_function=problem.q_function,
-                              **problem.solver)
+    lik = BoltzmannLikelihood(problem.mdp, demos, rationality=beta,
+                              q_function=problem.q_function, **problem.solver)
+    extra = evidence_files.further_evidence(problem, partial, comparisons_path)
     # Before sampling starts (and before its status line), so a stop saves the draws at once.
     arviz_compat.preload()
-    return problem, lik
+    return problem, lik, extra
 
 
-def _sample_kwargs(problem, settings: dict, quiet: bool) -> dict:
+def _sample_kwargs(problem, settings: dict, quiet: bool, extra=()) -> dict:
     return {"prior": problem.prior, "rationality": problem.rationality,
             "pin": problem.pin or None, "progress": not quiet, "pooling": problem.pooling,
-            **settings}
+            **({"evidence": extra} if extra else {}), **settings}
 
 
 def fit_command(args) -> int:
     """Run ``bayesirl fit`` (see ``bayesirl fit --help``)."""
     if args.resume:
-        if args.problem or args.demonstrations:
-            raise InputError("fit --resume RUNDIR takes no problem or demonstration files; "
-                             "the run folder records them")
+        if args.problem or args.demonstrations or getattr(args, "comparisons", None):
+            raise InputError("fit --resume RUNDIR takes no problem, demonstration or "
+                             "comparison files; the run folder records them")
         given = [f"--{k}" for k in (*OVERRIDES, "scheduler")
                  if getattr(args, k, None) is not None]
         if given or args.force:
@@ -65,8 +70,9 @@ def fit_command(args) -> int:
         raise InputError("fit: give a problem file and a demonstration file, e.g. "
                          "bayesirl fit park.toml walks.csv --out run")
     inputs = (args.problem, args.demonstrations)
-    check_target(args.out, args.force, inputs)  # before the slower reading and checking
-    problem, lik = _load(*inputs)
+    comparisons = getattr(args, "comparisons", None)
+    check_target(args.out, args.force, inputs + ((comparisons,) if comparisons else ()))
+    problem, lik, extra = _load(*inputs, comparisons)
     settings = dict(problem.sampler)
     for key in OVERRIDES:
         if getattr(args, key, None) is not None:
@@ -76,16 +82,18 @@ def fit_command(args) -> int:
     settings, why = mass.choose(problem, lik, settings)  # a ridge: dense mass matrix
     if why:
         say(args, f"dense mass matrix: on, because {why}")
-    record = {**inputs_record(*inputs), "requested": settings,
+    record = {**inputs_record(*inputs, comparisons=comparisons), "requested": settings,
               "command": shlex.join(["bayesirl", *getattr(args, "argv", sys.argv[1:])])}
-    say(args, f"{problem.mdp}; {lik.demos}; sampling {settings['chains']} chains x "
-              f"{settings['draws']} draws")
-    stage = Staging(args.out, replace=args.force, inputs=inputs)
-    return sample_into(args, stage, problem, lik, settings, record, resume=False)
+    say(args, f"{problem.mdp}; {lik.demos}"
+              + "".join(f"; {t!r}" for t in extra)
+              + f"; sampling {settings['chains']} chains x {settings['draws']} draws")
+    stage = Staging(args.out, replace=args.force,
+                    inputs=inputs + ((comparisons,) if comparisons else ()))
+    return sample_into(args, stage, problem, lik, settings, record, resume=False, extra=extra)
 
 
-def _sample(args, problem, lik, settings, run: RunFolder, resume: bool):
-    kwargs = _sample_kwargs(problem, settings, args.quiet)
+def _sample(args, problem, lik, settings, run: RunFolder, resume: bool, extra=()):
+    kwargs = _sample_kwargs(problem, settings, args.quiet, extra)
     if getattr(args, "scheduler", None) is not None:
         kwargs["backend"] = bayesirl.Cluster(args.scheduler)  # Dask tasks; no checkpoint
     else:
@@ -94,7 +102,8 @@ def _sample(args, problem, lik, settings, run: RunFolder, resume: bool):
     return bayesirl.sample(lik, **kwargs)
 
 
-def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bool) -> int:
+def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bool,
+                extra=()) -> int:
     """Sample into the staging folder, move it into place, then write the report.
 
     Whatever stops the run, what was sampled is kept: an interrupted run (or one killed
@@ -105,7 +114,7 @@ def sample_into(args, stage: Staging, problem, lik, settings, record, resume: bo
     try:
         if not resume:  # the record a resume needs, even after SIGKILL
             write_json(run.summary, started_summary(record))
-        done["posterior"] = _sample(args, problem, lik, settings, run, resume)
+        done["posterior"] = _sample(args, problem, lik, settings, run, resume, extra)
     except bayesirl.Interrupted as err:  # a KeyboardInterrupt subclass
         acknowledge()
         with held():
@@ -156,6 +165,8 @@ def render(args, out: RunFolder, posterior, summary: dict, action_names=None,
     except KeyboardInterrupt:
         acknowledge()
         return _report_skipped(out)
+    for line in evidence_files.contribution_lines(posterior):
+        say(args, line)
     made = "report.html" if out.report.exists() else "demonstrators.png"  # separate rewards
     say(args, f"wrote {out.root}/posterior.nc, summary.json and {made}")
     return 0

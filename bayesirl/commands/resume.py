@@ -67,11 +67,20 @@ def recorded(summary: dict, path: Path) -> dict:
     if not isinstance(requested, dict):
         raise InputError(f"{path}: requested = {requested!r}: expected the sampler settings")
     sampler_from(Table(requested, path, "requested"))  # every value as the problem file allows
-    return {k: summary[k] for k in RECORD}
+    out = {k: summary[k] for k in RECORD}
+    if "comparisons" in summary:  # a run with a comparison file
+        if not (isinstance(summary["comparisons"], str)
+                and isinstance(digests.get("comparisons"), str)):
+            raise InputError(f"{path}: comparisons = {summary['comparisons']!r}: expected a "
+                             "file name with its digest")
+        out["comparisons"] = summary["comparisons"]
+    return out
 
 
 def _check_inputs(record: dict) -> None:
-    for key in ("problem", "demonstrations"):
+    for key in ("problem", "demonstrations", "comparisons"):
+        if key not in record:
+            continue
         path = Path(record[key])
         if not path.is_file():
             raise InputError(f"{path}: the run's {key} file is gone; cannot resume")
@@ -114,13 +123,15 @@ def resume_command(args) -> int:
         raise InputError(f"{run.checkpoint}: missing; the run cannot be resumed")
     record = recorded(summary, run.summary)
     _check_inputs(record)
-    problem, lik = _load(record["problem"], record["demonstrations"])
+    problem, lik, extra = _load(record["problem"], record["demonstrations"],
+                                record.get("comparisons"))
     say(args, f"resuming {target}: {summary.get('draws_done', 0)} of "
               f"{record['requested']['draws']} draws per chain done")
     stage = Staging(target, replace=True, seed_from=source,
                     inputs=(record["problem"], record["demonstrations"]))
     write_json(RunFolder(stage.path).summary, {**summary, "pid": os.getpid()})
-    code = sample_into(args, stage, problem, lik, record["requested"], record, resume=True)
+    code = sample_into(args, stage, problem, lik, record["requested"], record, resume=True,
+                       extra=extra)
     if source != target:  # its state now lives on in target
         shutil.rmtree(source, ignore_errors=True)
     return code

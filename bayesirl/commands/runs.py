@@ -16,11 +16,13 @@ from bayesirl.io.runfolder import RUN_FORMAT, file_digest
 DEFAULT_LEVEL = 0.9
 
 
-def inputs_record(problem_path, demos_path) -> dict:
+def inputs_record(problem_path, demos_path, comparisons=None) -> dict:
     """Absolute input paths and their digests (a resume re-reads and compares them)."""
     paths = {"problem": Path(problem_path).resolve(),
              "demonstrations": Path(demos_path).resolve()}
-    return {"problem": str(paths["problem"]), "demonstrations": str(paths["demonstrations"]),
+    if comparisons is not None:
+        paths["comparisons"] = Path(comparisons).resolve()
+    return {**{k: str(p) for k, p in paths.items()},
             "inputs_sha256": {k: file_digest(p) for k, p in paths.items()}}
 
 

@@ -11,7 +11,7 @@ from bayesirl.commands.demonstrators import demonstrator_lines
 from bayesirl.commands.runs import report_choice, say, write_report
 from bayesirl.errors import InputError
 from bayesirl.files import write_json
-from bayesirl.io import RunFolder, read_demonstrations, read_problem
+from bayesirl.io import RunFolder, read_problem
 from bayesirl.resources import MAX_BUDGET
 
 
@@ -185,11 +185,21 @@ def check_command(args) -> int:
     h = "infinite horizon" if mdp.horizon is None else f"horizon {mdp.horizon}"
     print(f"{args.problem}: ok - {mdp.n_states} states, {mdp.n_actions} actions, features "
           f"{', '.join(mdp.feature_names)}; discount {mdp.discount:g}, {h}")
+    from bayesirl.commands import evidence_files
+
+    for line in (evidence_files.comparison_lines(args.comparisons, problem)
+                 if getattr(args, "comparisons", None) else []):
+        print(line)
     if args.demonstrations is None:
         print("no demonstration file given: structural findings need the demonstrations")
         return 0
-    demos = read_demonstrations(args.demonstrations, problem)
-    print(f"{args.demonstrations}: ok - {demos.n_episodes} episodes, {demos.n_steps} steps")
+    demos, partial = evidence_files.read_any_episodes(args.demonstrations, problem)
+    if partial is not None:
+        print(*evidence_files.episode_lines(args.demonstrations, partial), sep="\n")
+        if demos is None:
+            return 0
+    print(f"{args.demonstrations}: ok - {demos.n_episodes} episodes, {demos.n_steps} steps"
+          + (" fully recorded" if partial is not None else ""))
     for line in demonstrator_lines(problem, demos):
         print(line)
     found = structural.findings(mdp, demos)

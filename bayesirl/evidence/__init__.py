@@ -6,9 +6,12 @@ estimated dynamics) is one new module with a class satisfying :class:`EvidenceTe
 """
 
 from bayesirl.evidence.boltzmann import BoltzmannTerm
+from bayesirl.evidence.comparisons import ComparisonTerm, discounted_features
 from bayesirl.evidence.groups import demonstrator_evidence, pooled_evidence, weights_name
 from bayesirl.evidence.model import Evidence
+from bayesirl.evidence.partial import PartialEpisodes, PartialTerm, state_only
 from bayesirl.evidence.term import EvidenceTerm, Pointwise, PointwiseTerm, TermValue
 
-__all__ = ["BoltzmannTerm", "Evidence", "EvidenceTerm", "Pointwise", "PointwiseTerm",
-           "TermValue", "demonstrator_evidence", "pooled_evidence", "weights_name"]
+__all__ = ["BoltzmannTerm", "ComparisonTerm", "Evidence", "EvidenceTerm", "PartialEpisodes",
+           "PartialTerm", "Pointwise", "PointwiseTerm", "TermValue", "demonstrator_evidence",
+           "discounted_features", "pooled_evidence", "state_only", "weights_name"]

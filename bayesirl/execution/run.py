@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pickle
 import time
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -23,6 +23,7 @@ from bayesirl.posterior.groups import make_model
 from bayesirl.resources import check_sampling
 
 if TYPE_CHECKING:
+    from bayesirl.evidence import EvidenceTerm
     from bayesirl.likelihood import BoltzmannLikelihood
     from bayesirl.posterior import Posterior
     from bayesirl.posterior.groups import Pooling
@@ -86,6 +87,7 @@ def sample(
     checkpoint: str | Path | None = None,
     resume: bool = False,
     pooling: str | Pooling | None = None,
+    evidence: Sequence[EvidenceTerm] = (),
 ) -> Posterior:
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
@@ -132,6 +134,10 @@ def sample(
         share a reward; default ``"pooled"``: one reward for every episode. ``"partial"``:
         each demonstrator's weights around a population mean with a sampled per-feature
         spread (see :class:`bayesirl.posterior.groups.Pooling`).
+    evidence : sequence of evidence terms, optional
+        Evidence beside the demonstrations: ``bayesirl.evidence.PartialTerm`` (episodes with
+        unrecorded actions or states), ``ComparisonTerm`` (answers between episodes), each
+        with a fixed judge rationality. Pooled only.
 
     Returns
     -------
@@ -155,7 +161,7 @@ def sample(
     where.check(checkpoint=checkpoint is not None or bool(resume))
     if resume and checkpoint is None:
         raise InputError("resume=True needs checkpoint=PATH, the file to resume from")
-    model = make_model(likelihood, prior, rationality, pin, pooling)
+    model = make_model(likelihood, prior, rationality, pin, pooling, extra=evidence)
     settings = {"draws": int(draws), "warmup": int(warmup), "method": method,
                 "dense_mass": bool(dense_mass), "target_accept": target_accept,
                 "max_depth": int(max_depth)}

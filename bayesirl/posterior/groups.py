@@ -304,7 +304,7 @@ def as_pooling(pooling) -> Pooling:
                      f"{pooling!r}")
 
 
-def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None):
+def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None, extra=()):
     """The posterior model of ``likelihood``'s demonstrations under ``pooling``.
 
     ``pooled`` gives :class:`~bayesirl.posterior.PosteriorModel` (every episode one
@@ -316,7 +316,10 @@ def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None)
     if rationality is None:  # the likelihood's own: a number, or a prior to sample
         rationality = getattr(likelihood, "rationality_prior", None)
     if pooling.kind == "pooled":
-        return PosteriorModel(likelihood, prior, rationality, pin)
+        return PosteriorModel(likelihood, prior, rationality, pin, extra=extra)
+    if extra:
+        raise InputError(f"pooling {pooling.kind!r}: evidence beside the demonstrations "
+                         "(state-only episodes, comparisons) needs pooling 'pooled' for now")
     if likelihood.demos.demonstrators is None:
         raise InputError(f"pooling {pooling.kind!r} needs episodes that name their "
                          "demonstrator (CSV column or JSON Lines key 'demonstrator'); none do")

@@ -29,16 +29,30 @@ class PosteriorModel:
         None or a number: fixed (None uses ``likelihood.rationality``). A prior: sampled.
     pin : dict {feature name: value} or None
         Weights held fixed. Required (one weight) when the rationality is sampled.
+    extra : sequence of evidence terms
+        Evidence beside the demonstrations (``bayesirl.evidence.PartialTerm``,
+        ``ComparisonTerm``), each reading ``"weights"`` and perhaps ``"rationality"``.
     """
 
     pooling = "pooled"
 
-    def __init__(self, likelihood, prior=None, rationality=None, pin=None) -> None:
+    def __init__(self, likelihood, prior=None, rationality=None, pin=None, *,
+                 extra=()) -> None:
         self.likelihood = likelihood
-        # prior + sum of evidence terms; here the one term of every episode together
-        from bayesirl.evidence import pooled_evidence  # the likelihood stack, on first use
+        # prior + sum of evidence terms: the one term of every episode together, then any
+        # further evidence (its own keys; the demonstrations' term then needs one too)
+        from bayesirl.evidence import (  # the likelihood stack, on first use
+            BoltzmannTerm,
+            Evidence,
+            pooled_evidence,
+        )
 
-        self.evidence = pooled_evidence(likelihood)
+        self.extra = tuple(extra)
+        self.evidence = (pooled_evidence(likelihood) if not self.extra else
+                         Evidence([BoltzmannTerm(likelihood, key="demos"), *self.extra]))
+        if not set(self.evidence.reads) <= {"weights", "rationality"}:
+            raise InputError(f"extra: terms may read weights and rationality only; got "
+                             f"{list(self.evidence.reads)}")
         names = likelihood.mdp.feature_names
         self.feature_names = names
         self.prior = Normal(0.0, DEFAULT_SCALE) if prior is None else prior

@@ -9,6 +9,7 @@ import scipy.sparse as sp
 
 from bayesirl import arviz_compat
 from bayesirl.errors import InputError
+from bayesirl.evidence.records import term_from_record, term_record
 from bayesirl.files import atomic_target
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP
@@ -52,6 +53,10 @@ def problem_arrays(model: PosteriorModel) -> tuple[dict, dict]:
     if demos.demonstrators is not None:
         arrays["demo_demonstrators"] = np.asarray(demos.demonstrators, dtype=str)
         dims["demo_demonstrators"] = ["episode"]
+    for i, term in enumerate(getattr(model, "extra", ())):  # evidence beside the demos
+        for name, a in term_record(term)[0].items():
+            arrays[f"evidence{i}_{name}"] = a
+            dims[f"evidence{i}_{name}"] = [f"evidence{i}_{name}_{j}" for j in range(a.ndim)]
     return arrays, dims
 
 
@@ -65,7 +70,10 @@ def problem_meta(model: PosteriorModel) -> dict:
             "max_newton_steps": getattr(lik, "max_newton_steps", None),
             "max_linear_iterations": getattr(lik, "max_linear_iterations", None),
             "likelihood_rationality": lik.rationality,
-            "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None}
+            "grid_shape": list(mdp.grid_shape) if mdp.grid_shape else None,
+            # absent without further evidence, so older runs' fingerprints stay the same
+            **({"evidence": [term_record(t)[1] for t in model.extra]}
+               if getattr(model, "extra", ()) else {})}
 
 
 # The demonstrations are the observations (ArviZ's observed_data); the MDP is constant_data.
@@ -108,7 +116,12 @@ def rebuild_model(const, meta: dict, observed=None) -> PosteriorModel:
                               tol=pm["tol"], **_solver_settings(pm))
     spec = meta["model"]
     pooling = Pooling.from_spec(spec["pooling"]) if "pooling" in spec else None
-    return make_model(lik, pooling=pooling, **PosteriorModel.parse_spec(spec))
+    extra = []
+    for i, term_meta in enumerate(pm.get("evidence", [])):
+        prefix = f"evidence{i}_"
+        arrays = {k[len(prefix):]: const[k].values for k in const if k.startswith(prefix)}
+        extra.append(term_from_record(mdp, arrays, term_meta))
+    return make_model(lik, pooling=pooling, extra=extra, **PosteriorModel.parse_spec(spec))
 
 
 def _solver_settings(pm: dict) -> dict:

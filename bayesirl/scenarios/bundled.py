@@ -18,6 +18,7 @@ from bayesirl.io import read_problem, write_demonstrations
 from bayesirl.model import Demonstrations, simulate
 from bayesirl.scenarios.machine import MACHINE_WEIGHTS, machine_arrays
 from bayesirl.scenarios.park import PARK, PARK_WEIGHTS, SLIP
+from bayesirl.scenarios.park_evidence import write_park_evidence
 from bayesirl.scenarios.walkers import EPISODES_EACH, LENGTH, POOLING_TABLE, WALKER_WEIGHTS
 
 # Small sampler settings keep a bundled example to seconds on two cores; the write-ups say so.
@@ -104,7 +105,7 @@ class Example(NamedTuple):
 
     name: str
     summary: str
-    write: Callable[[Path], tuple[Path, Path]]
+    write: Callable[[Path], tuple[Path, ...]]  # problem, episodes[, comparisons]
 
 
 def _write_park(folder: Path) -> tuple[Path, Path]:
@@ -179,6 +180,10 @@ EXAMPLES = {
                                   "each month at 80 wear levels, discount 0.999 (a dynamic "
                                   "discrete choice)",
                        _write_machine),
+    "park-evidence": Example("park-evidence", "the park from 8 recorded walks, 32 tracked "
+                                              "walks (no actions, gaps) and 40 answers "
+                                              "comparing walks",
+                             lambda folder: write_park_evidence(folder, PARK_TOML)),
     "walkers": Example("walkers", "four walkers in the park who agree on mud and slope but "
                                   "differ on shade (partial pooling of demonstrators)",
                        _write_walkers),

@@ -32,7 +32,7 @@ def test_map_example_with_the_csv_and_jsonl_examples(tmp_path):
     problem = read_problem(tmp_path / "park.toml")
     assert problem.mdp.grid_shape == (6, 7) and problem.blocked == frozenset({2 * 7 + 3})
     assert problem.pin == {"water": 2.0}
-    features_csv, csv_demo = blocks("csv")
+    features_csv, csv_demo = blocks("csv")[:2]
     (tmp_path / "walks.csv").write_text(csv_demo)
     (tmp_path / "walks.jsonl").write_text(blocks("jsonl")[0])
     from_csv = read_demonstrations(tmp_path / "walks.csv", problem)

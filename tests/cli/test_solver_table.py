@@ -31,7 +31,7 @@ def test_values_reach_the_likelihood(tmp_path, monkeypatch, capsys):
                               "max_linear_iterations": 500}
     (tmp_path / "walks.csv").write_text("episode,step,row,col,action\na,0,0,0,right\n"
                                         "a,1,0,1,right\na,2,0,2,down\na,3,1,2,\n")
-    _, lik = _load(tmp_path / "p.toml", tmp_path / "walks.csv")
+    _, lik, _ = _load(tmp_path / "p.toml", tmp_path / "walks.csv")
     assert (lik.tol, lik.gradient_rtol, lik.max_newton_steps, lik.max_linear_iterations) == (
         0.0, 1e-6, 80, 500)
 

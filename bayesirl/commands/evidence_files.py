@@ -1,0 +1,104 @@
+"""``check`` (and later ``fit``) for the further kinds of evidence: episodes with unrecorded
+actions or states, and comparison files. Kept apart from the demonstration path so that files
+without blanks read exactly as before."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.io import read_demonstrations
+
+
+def read_any_episodes(path, problem):
+    """``(Demonstrations or None, EpisodeFile or None)``: a demonstration file as before, or,
+    if it has unrecorded actions or states, the episode file it is.
+
+    When both readers refuse a file, the error shown is the episode reader's if the
+    demonstration reader stopped at a blank (so the real problem further on is named), else
+    the demonstration reader's (e.g. a demonstrator column, which only it reads).
+    """
+    from bayesirl.io.episodefiles import read_episodes
+
+    try:
+        return read_demonstrations(path, problem), None
+    except InputError as first:
+        msg = str(first)  # stopped at a blank CSV field or a JSON null?
+        at_blank = "''" in msg or "empty action" in msg or " None " in msg
+        try:
+            found = read_episodes(path, problem)
+        except InputError as second:
+            raise (second if at_blank else first) from None
+        if found.partial is None:
+            raise first from None
+        return found.demonstrations, found
+
+
+def episode_lines(path, found) -> list[str]:
+    """What ``check`` prints about an episode file with unrecorded parts."""
+    part = found.partial
+    n_a = sum(int(np.sum(a < 0)) for _, a in part.episodes)
+    n_s = sum(int(np.sum(s[:-1] < 0)) for s, _ in part.episodes)
+    return [f"{path}: ok - {len(found.names)} episodes: {len(found.complete)} fully recorded, "
+            f"{len(found.incomplete)} with unrecorded parts ({n_a} actions and {n_s} states "
+            "not recorded; their likelihood sums over what is missing)"]
+
+
+def comparison_lines(path, problem) -> list[str]:
+    """Read a comparison file and say what it holds."""
+    from bayesirl.io.comparisonfiles import read_comparisons
+
+    found = read_comparisons(path, problem)
+    return [f"{path}: ok - {len(found.pairs)} answers comparing {len(found.episodes)} "
+            "episodes (Bradley-Terry choice on discounted returns)"]
+
+
+def further_evidence(problem, found, comparisons_path) -> tuple:
+    """The evidence terms beside the demonstrations: partial episodes, comparisons."""
+    from bayesirl.evidence.partial import PartialTerm
+    from bayesirl.io.comparisonfiles import read_comparisons
+
+    terms = []
+    if found is not None and found.partial is not None:
+        if problem.demonstrator != "soft":
+            raise InputError(f"{problem.source}: [model] demonstrator = "
+                             f"{problem.demonstrator!r}; episodes with unrecorded actions or "
+                             "states are modelled for the soft demonstrator only")
+        solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
+        terms.append(PartialTerm(problem.mdp, found.partial, **solver))
+    if comparisons_path is not None:
+        terms.append(read_comparisons(comparisons_path, problem).term(problem.mdp, 1.0))
+    return tuple(terms)
+
+
+KIND_NAMES = {"demos": "fully recorded episodes", "partial": "episodes with unrecorded parts",
+              "comparisons": "comparisons"}
+
+
+def contribution_lines(posterior) -> list[str]:
+    """What each kind of evidence did to each free weight's sd (the Laplace split of
+    :mod:`bayesirl.evidence.contributions` at the posterior mean), or nothing for a model
+    with one kind of evidence."""
+    from bayesirl.evidence.contributions import split
+
+    model = posterior.model
+    if not getattr(model, "extra", ()) or posterior.weights.shape[1] == 0:
+        return []
+    w = posterior.weights.reshape(-1, posterior.weights.shape[-1]).mean(axis=0)
+    beta = (model.fixed_rationality if model.fixed_rationality is not None
+            else float(np.mean(posterior.rationality)))
+    names = [model.feature_names[i] for i in model.free]
+    var = np.asarray(model.prior.variance(len(model.feature_names)), float)[model.free]
+    found = split(model.evidence.terms, {"weights": w, "rationality": beta}, model.free, var)
+    lines = ["what each kind of evidence did to the weights' sd (Laplace reading at the "
+             "posterior mean; the sampled intervals are the answer):",
+             "  " + ", ".join(f"{n} {a:.3g} -> {b:.3g}" for n, a, b in
+                              zip(names, found.sd_prior, found.sd_all, strict=True))
+             + " (prior only -> all evidence)"]
+    for kind in found.kinds:
+        what = KIND_NAMES.get(kind.key, kind.key)
+        lines.append(f"  {what}: alone " + ", ".join(
+            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_alone, strict=True))
+            + "; all but these " + ", ".join(
+            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_without, strict=True)))
+    return lines

@@ -1,0 +1,314 @@
+"""Episodes with unrecorded actions (state-only walks) or unrecorded states (gaps).
+
+Motion capture, video and animal tracking record where the demonstrator went, not what it
+chose; logs drop samples. An episode is then ``states[0..T]`` and ``actions[0..T-1]`` with
+``-1`` (or ``None``) where nothing was recorded, and its likelihood marginalises what is
+missing under the soft (maximum-causal-entropy) Boltzmann policy:
+
+    log p = log P(recorded states after the first, recorded actions | first state, w, beta)
+          = sum over pieces (see :mod:`bayesirl.evidence.hidden`),
+
+e.g. ``log P(s_{t+1} | s_t) = log sum_a pi(a|s_t) P(s_{t+1}|s_t,a)`` for a step without its
+action. Unlike :class:`~bayesirl.evidence.BoltzmannTerm`, the dynamics factors are included
+(with a missing action or state they depend on ``w``): a fully recorded episode gives the
+Boltzmann log-likelihood plus the constant ``sum_t log P(s_{t+1}|s_t,a_t)``. The gradient is
+exact (:mod:`bayesirl.likelihood.marginal`), its ``log(beta)`` part is ``w . dL/dw``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+
+from bayesirl.errors import InputError
+from bayesirl.evidence.hidden import (
+    MAX_GAP_FLOATS,
+    Gap,
+    Steps,
+    gap_batch_pass,
+    gap_pass,
+    step_pass,
+)
+from bayesirl.evidence.term import TermValue
+from bayesirl.likelihood import marginal, soft, warm
+
+
+class PartialEpisodes:
+    """Episodes of ``T + 1`` (or ``T``) states and ``T`` actions, ``-1`` = not recorded.
+
+    Parameters
+    ----------
+    states_list, actions_list : sequences of integer sequences (``None`` allowed inside)
+        The first state of every episode must be recorded.
+    """
+
+    def __init__(self, states_list, actions_list) -> None:
+        states_list, actions_list = list(states_list), list(actions_list)
+        if not states_list:
+            raise InputError("partial episodes: the set is empty; give at least one episode")
+        if len(states_list) != len(actions_list):
+            raise InputError(f"partial episodes: {len(states_list)} state sequences but "
+                             f"{len(actions_list)} action sequences")
+        self.episodes = []
+        for k, (s, a) in enumerate(zip(states_list, actions_list, strict=True)):
+            s_arr, a_arr = _ints(s, f"episode {k} states"), _ints(a, f"episode {k} actions")
+            if a_arr.size == 0 or s_arr.size not in (a_arr.size, a_arr.size + 1):
+                raise InputError(f"partial episodes: episode {k} has {a_arr.size} actions and "
+                                 f"{s_arr.size} states; expected at least one action and as "
+                                 "many states or one more")
+            if s_arr[0] < 0:
+                raise InputError(f"partial episodes: episode {k}: the first state is not "
+                                 "recorded; an episode starts at a known state")
+            if s_arr.size == a_arr.size:  # the state after the last action: not recorded
+                s_arr = np.append(s_arr, -1)
+            self.episodes.append((s_arr, a_arr))
+
+    @property
+    def n_episodes(self) -> int:
+        """Number of episodes."""
+        return len(self.episodes)
+
+    def __repr__(self) -> str:
+        missing_a = sum(int(np.sum(a < 0)) for _, a in self.episodes)
+        missing_s = sum(int(np.sum(s < 0)) for s, _ in self.episodes)
+        return (f"PartialEpisodes(episodes={self.n_episodes}, unrecorded actions={missing_a}, "
+                f"unrecorded states={missing_s})")
+
+    def pieces(self, mdp) -> tuple[Steps, list[Gap]]:
+        """Cut every episode at its recorded states; check everything against ``mdp``."""
+        rows: list[tuple[int, int, int, int, int]] = []
+        gaps: list[Gap] = []
+        for k, (s, a) in enumerate(self.episodes):
+            _check_ranges(k, s, a, mdp)
+            last = _last_informative(s, a)
+            t = 0
+            while t < last:
+                nxt = t + 1
+                while nxt < last and s[nxt] < 0:
+                    nxt += 1
+                end = int(s[nxt]) if nxt <= a.size and s[nxt] >= 0 else -1
+                if nxt == t + 1:
+                    rows.append((int(s[t]), end, int(a[t]), t, k))
+                else:
+                    gaps.append(Gap(k, t, int(s[t]), a[t:nxt].copy(), end))
+                t = nxt
+        return _steps(rows, mdp), gaps
+
+
+def _last_informative(s: np.ndarray, a: np.ndarray) -> int:
+    """Steps after the last recorded state or action carry no information: drop them."""
+    t_s = int(np.flatnonzero(s >= 0).max())
+    t_a = int(np.flatnonzero(a >= 0).max()) + 1 if np.any(a >= 0) else 0
+    return max(t_s, t_a)
+
+
+def _steps(rows, mdp) -> Steps:
+    arr = np.asarray(rows, dtype=np.int64).reshape(-1, 5)
+    source, target = arr[:, 0], arr[:, 1]
+    n_a = mdp.n_actions
+    next_prob = np.ones((arr.shape[0], n_a))
+    inside = target >= 0
+    if np.any(inside):
+        r = (source[inside, None] * n_a + np.arange(n_a)[None, :]).ravel()
+        c = np.repeat(target[inside], n_a)
+        next_prob[inside] = np.asarray(mdp.transitions[r, c]).reshape(-1, n_a)
+    return Steps(source, target, arr[:, 2], arr[:, 3], arr[:, 4], next_prob)
+
+
+def _check_ranges(k: int, s: np.ndarray, a: np.ndarray, mdp) -> None:
+    for arr, n, what in ((s, mdp.n_states, "state"), (a, mdp.n_actions, "action")):
+        bad = np.flatnonzero(arr >= n)
+        if bad.size:
+            raise InputError(f"partial episodes: episode {k} {what} {int(bad[0])} is "
+                             f"{int(arr[bad[0]])}; valid values are 0..{n - 1}")
+    if mdp.horizon is not None and a.size > mdp.horizon:
+        raise InputError(f"partial episodes: episode {k} has {a.size} steps, longer than the "
+                         f"horizon {mdp.horizon}")
+
+
+def _ints(x, what: str) -> np.ndarray:
+    try:
+        vals = [-1 if v is None else v for v in x]
+        arr = np.asarray(vals)
+    except (TypeError, ValueError) as err:
+        raise InputError(f"partial episodes: {what}: not a sequence of indices ({err})") from None
+    if arr.ndim != 1 or (arr.size and (arr.dtype == bool or not np.issubdtype(arr.dtype,
+                                                                            np.integer))):
+        raise InputError(f"partial episodes: {what}: expected whole numbers (None or -1 for "
+                         f"not recorded); got {list(x)!r}")
+    if np.any(arr < -1):
+        raise InputError(f"partial episodes: {what}: {int(arr.min())} is not an index "
+                         "(-1 or None means not recorded)")
+    return arr.astype(np.int64)
+
+
+class PartialTerm:
+    """Evidence term of :class:`PartialEpisodes` under the soft Boltzmann demonstrator.
+
+    Parameters
+    ----------
+    mdp : TabularMDP
+    episodes : PartialEpisodes
+        Checked against ``mdp``: ranges, horizon, and that the recorded parts of every
+        piece are possible under the dynamics (a soft policy gives every action positive
+        probability, so possibility does not depend on the weights).
+    key, weights, rationality : str
+        The term's key and the names of the quantities it reads.
+    tol, gradient_rtol : float
+        Tolerances of the soft Bellman and adjoint solves (as for BoltzmannLikelihood);
+        kept in ``settings``.
+    """
+
+    def __init__(self, mdp, episodes: PartialEpisodes, key: str = "partial",
+                 weights: str = "weights", rationality: str = "rationality",
+                 tol: float = 1e-10, gradient_rtol: float = soft.ADJOINT_RTOL) -> None:
+        if not isinstance(episodes, PartialEpisodes):
+            raise InputError(f"episodes: expected PartialEpisodes; got {type(episodes).__name__}")
+        self.mdp, self.episodes, self.key = mdp, episodes, key
+        self.weights_name, self.rationality_name = weights, rationality
+        self.reads = (weights, rationality)
+        self.steps, self.gaps = episodes.pieces(mdp)
+        self.settings = {"tol": float(tol), "gradient_rtol": float(gradient_rtol)}
+        self._check_possible()
+        self._cache = marginal.new_cache(mdp, self.settings)
+        self.n_evaluations = 0
+        self.work = soft.new_work()
+
+    def __repr__(self) -> str:
+        return (f"PartialTerm(key={self.key!r}, episodes={self.episodes.n_episodes}, "
+                f"steps={self.steps.source.size}, gaps={len(self.gaps)})")
+
+    def _check_possible(self) -> None:
+        found = first_impossible(self.mdp, self.steps, self.gaps)
+        if found is not None:
+            raise InputError(f"partial episodes: episode {found[0]} {found[2]}")
+
+    # -- evaluation -------------------------------------------------------------------------
+    def _pass(self, policy: np.ndarray, counts: bool):
+        """Per-episode log-probabilities and (if asked) the expected step counts."""
+        mdp = self.mdp
+        finite = mdp.horizon is not None
+        per_episode = np.zeros(self.episodes.n_episodes)
+        with np.errstate(invalid="ignore"):  # 0/0 only where the piece is impossible
+            logp, post = step_pass(self.steps, policy, finite)
+        np.add.at(per_episode, self.steps.episode, logp)
+        shape = (mdp.horizon, mdp.n_states * mdp.n_actions) if finite else (
+            mdp.n_states * mdp.n_actions,)
+        n_sa = np.zeros(shape) if counts else None
+        if counts:
+            rows = self.steps.source[:, None] * mdp.n_actions + np.arange(mdp.n_actions)
+            if finite:
+                np.add.at(n_sa, (self.steps.time[:, None], rows), post)
+            else:
+                np.add.at(n_sa, rows, post)
+        if not finite and self.gaps:  # stationary policy: equal-length gaps together
+            lp, n_gap = gap_batch_pass(mdp.dynamics, self.gaps, policy, counts)
+            np.add.at(per_episode, [g.episode for g in self.gaps], lp)
+            if counts:
+                n_sa += n_gap.ravel()
+            return per_episode, n_sa
+        policy_at = (lambda t: policy[t]) if finite else (lambda t: policy)
+        for gap in self.gaps:
+            lp, parts = gap_pass(mdp.dynamics, gap, policy_at, counts)
+            per_episode[gap.episode] += lp
+            for t, n_t in parts:
+                if finite:
+                    n_sa[t] += n_t.ravel()
+                else:
+                    n_sa += n_t.ravel()
+        return per_episode, n_sa
+
+    def _unpack(self, quantities):
+        w = self.mdp.check_weights(quantities[self.weights_name])
+        beta = float(quantities[self.rationality_name])
+        if not np.isfinite(beta) or beta <= 0:
+            raise InputError(f"rationality: must be a positive finite number; got {beta!r}")
+        return w, beta
+
+    def evaluate(self, quantities: Mapping[str, object], gradient: bool = True) -> TermValue:
+        """Log-likelihood; gradient in the weights and in ``log(rationality)``."""
+        w, beta = self._unpack(quantities)
+        solved = marginal.solve_policy(self.mdp, self._cache, w, beta, self.work)
+        per_episode, n_sa = self._pass(solved.policy, gradient)
+        self.n_evaluations += 1
+        logp = float(per_episode.sum())
+        if not gradient:
+            return TermValue(logp, {})
+        if not np.isfinite(logp):
+            # At extreme weights a policy entry can underflow to 0 and leave a recorded piece
+            # no probability: a rejected point (its true likelihood is below exp(-700)).
+            return TermValue(-np.inf, {self.weights_name: np.full(w.size, np.nan),
+                                       self.rationality_name: np.nan})
+        g = marginal.gradient(self.mdp, self._cache, solved, n_sa, w, beta, self.work)
+        return TermValue(logp, {self.weights_name: g, self.rationality_name: float(w @ g)})
+
+    def pointwise(self, quantities: Mapping[str, object]) -> np.ndarray:
+        """Log-likelihood of each episode ``(E,)`` (they sum to :meth:`evaluate`'s)."""
+        w, beta = self._unpack(quantities)
+        solved = marginal.solve_policy(self.mdp, self._cache, w, beta, self.work)
+        self.n_evaluations += 1
+        return self._pass(solved.policy, False)[0]
+
+    # -- warm starts (the discounted cache of likelihood.soft) ------------------------------
+    def warm_start(self) -> dict:
+        """A cheap snapshot of the warm starts."""
+        return {"cache": warm.snapshot(self._cache), "n_evaluations": self.n_evaluations}
+
+    def restore_warm_start(self, snapshot: dict) -> None:
+        """Back to a :meth:`warm_start` snapshot."""
+        self._cache = warm.snapshot(snapshot["cache"])
+        self.n_evaluations = snapshot["n_evaluations"]
+
+    def warm_start_arrays(self) -> dict[str, np.ndarray]:
+        """The warm starts as named arrays (for checkpoint files)."""
+        out = warm.to_arrays(self._cache)
+        out["n_evaluations"] = np.array(self.n_evaluations)
+        return out
+
+    def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
+        """Inverse of :meth:`warm_start_arrays` (no arrays: start cold)."""
+        fresh = marginal.new_cache(self.mdp, self.settings)
+        if "n_evaluations" not in arrays:
+            self._cache = fresh
+            return
+        self._cache = warm.from_arrays(fresh, arrays)
+        self.n_evaluations = int(arrays["n_evaluations"])
+
+
+def first_impossible(mdp, steps: Steps, gaps: list[Gap]):
+    """``(episode, step, message)`` of the first piece the dynamics forbid, else None.
+
+    ``step`` is the index of the recorded state that cannot be reached (or the episode's
+    length for an impossible end). A soft policy gives every action positive probability,
+    so the uniform policy has the same support as every soft policy: checking it once checks
+    all weights.
+    """
+    uniform = np.full((mdp.n_states, mdp.n_actions), 1.0 / mdp.n_actions)
+    logp, _ = step_pass(steps, uniform, False)
+    bad = np.flatnonzero(~np.isfinite(logp))
+    found = []
+    if bad.size:
+        i = int(bad[0])
+        how = "any action" if steps.action[i] < 0 else f"action {int(steps.action[i])}"
+        found.append((int(steps.episode[i]), int(steps.time[i]) + 1,
+                      f"step {int(steps.time[i]) + 1}: the dynamics cannot go from state "
+                      f"{int(steps.source[i])} by {how} to state {int(steps.target[i])}"))
+    for gap in gaps:
+        length = gap.actions.size
+        if length * mdp.n_states > MAX_GAP_FLOATS:
+            found.append((gap.episode, gap.time + length,
+                          f"steps {gap.time}..{gap.time + length}: a gap of {length - 1} "
+                          f"unrecorded states; at most {MAX_GAP_FLOATS // mdp.n_states - 1} "
+                          "fit in memory"))
+        elif not np.isfinite(gap_pass(mdp.dynamics, gap, lambda t: uniform, False)[0]):
+            where = "the episode's end" if gap.end < 0 else f"state {gap.end}"
+            found.append((gap.episode, gap.time + length,
+                          f"steps {gap.time}..{gap.time + length}: no path of {length} steps "
+                          f"leads from state {gap.start} to {where} with the recorded actions"))
+    return min(found, key=lambda x: x[:2]) if found else None
+
+
+def state_only(states_list: Sequence) -> PartialEpisodes:
+    """Episodes given as state sequences only (no action recorded)."""
+    return PartialEpisodes(states_list, [[-1] * (len(s) - 1) for s in states_list])
