@@ -60,9 +60,9 @@ def further_evidence(problem, found, comparisons_path) -> tuple:
 
     terms = []
     if found is not None and found.partial is not None:
-        if problem.demonstrator != "soft":
-            raise InputError(f"{problem.source}: [model] demonstrator = "
-                             f"{problem.demonstrator!r}; episodes with unrecorded actions or "
+        if problem.q_function != "soft":
+            raise InputError(f"{problem.source}: [model] q_function = "
+                             f"{problem.q_function!r}; episodes with unrecorded actions or "
                              "states are modelled for the soft demonstrator only")
         solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
         terms.append(PartialTerm(problem.mdp, found.partial, **solver))

@@ -41,7 +41,7 @@ def test_posterior_file_keeps_the_further_evidence(files):
     problem, lik, extra = _load(files / "p.toml", files / "e.csv", files / "c.jsonl")
     assert [type(t).__name__ for t in extra] == ["PartialTerm", "ComparisonTerm"]
     post = bi.sample(lik, prior=problem.prior, evidence=extra, chains=1, draws=20, warmup=20,
-                     processes=1, progress=False)
+                     backend=bi.Processes(1), progress=False)
     post.save(files / "post.nc")
     back = bi.Posterior.load(files / "post.nc")
     direct = PosteriorModel(lik, problem.prior, extra=extra)
@@ -52,7 +52,7 @@ def test_posterior_file_keeps_the_further_evidence(files):
     lines = contribution_lines(back)
     assert [line.split(":")[0].strip() for line in lines[2:]] == [
         "fully recorded episodes", "episodes with unrecorded parts", "comparisons"]
-    plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5, processes=1,
+    plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5, backend=bi.Processes(1),
                       progress=False)
     assert contribution_lines(plain) == []  # one kind of evidence: nothing to split
 
@@ -90,7 +90,7 @@ def test_fit_with_comparisons_from_the_command_line(files, capsys):
 
 
 def test_partial_episodes_need_the_soft_demonstrator(files):
-    text = TINY_TOML.replace("discount = 0.9", "discount = 0.9\ndemonstrator = \"optimal\"")
+    text = TINY_TOML.replace("discount = 0.9", "discount = 0.9\nq_function = \"optimal\"")
     (files / "p.toml").write_text(text)
     with pytest.raises(InputError, match="soft demonstrator only"):
         _load(files / "p.toml", files / "e.csv")
