@@ -19,7 +19,7 @@ from bayesirl.cli import main
 from bayesirl.commands.evidence_files import contribution_lines
 from bayesirl.commands.fit import _load
 from bayesirl.errors import InputError
-from bayesirl.posterior import checkpoint
+from bayesirl.execution import checkpoint
 from bayesirl.posterior.groups import make_model
 from bayesirl.posterior.model import PosteriorModel
 

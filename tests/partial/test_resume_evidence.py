@@ -17,7 +17,7 @@ from resume.test_warm_starts import sparse_likelihood
 
 import bayesirl as bi
 from bayesirl.evidence import ComparisonTerm, PartialEpisodes, PartialTerm
-from bayesirl.posterior import chains
+from bayesirl.execution import chains
 
 RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, backend=bi.Processes(1))
 PRIOR = bi.Normal(0.0, 2.0)
