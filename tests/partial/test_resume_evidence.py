@@ -12,12 +12,12 @@ from functools import cache
 
 import numpy as np
 import pytest
-from bayesirl.execution.interrupt import StopHook
 from resume.test_warm_starts import sparse_likelihood
 
 import bayesirl as bi
 from bayesirl.evidence import ComparisonTerm, PartialEpisodes, PartialTerm
 from bayesirl.execution import chains
+from bayesirl.execution.interrupt import StopHook
 
 RUN = dict(chains=1, draws=8, warmup=16, seed=4, progress=False, backend=bi.Processes(1))
 PRIOR = bi.Normal(0.0, 2.0)
