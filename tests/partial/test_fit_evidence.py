@@ -52,8 +52,8 @@ def test_posterior_file_keeps_the_further_evidence(files):
     lines = contribution_lines(back)
     assert [line.split(":")[0].strip() for line in lines[2:]] == [
         "fully recorded episodes", "episodes with unrecorded parts", "comparisons"]
-    plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5, backend=bi.Processes(1),
-                      progress=False)
+    plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5,
+                      backend=bi.Processes(1), progress=False)
     assert contribution_lines(plain) == []  # one kind of evidence: nothing to split
 
 
