@@ -249,6 +249,7 @@ class JaxLikelihood:
                                                    max_iter)
         self._solve, self._expect = solve, expect
         self.params = self._params()
+        self._anchor_fn = None
         self._loglik = self._build(solve, adjoint, expect)
         self.loglik = jax.jit(self._loglik)
         self.value_and_grad_fn = jax.jit(jax.value_and_grad(self._loglik, argnums=1))
@@ -314,18 +315,22 @@ class JaxLikelihood:
 
     def anchor(self, weights) -> None:
         """Start every later solve from the linearisation at ``weights`` (e.g. the mode)."""
+        if self._anchor_fn is None:
+            self._anchor_fn = self.jax.jit(self._linearise)
+        w = self.jax.numpy.asarray(weights, dtype=float)
+        v, jac = self._anchor_fn(self.params, w)
+        self.params = {**self.params, "v_anchor": v, "jac": jac, "z_anchor": self.beta * w}
+
+    def _linearise(self, p, w):
+        """``V`` at ``w`` and ``J = dV/d(beta w)``: ``(I - g P_pi) J = phi_pi``, F solves."""
         jax, jnp, g = self.jax, self.jax.numpy, self.arrays.discount
         from jax.scipy.sparse.linalg import gmres
 
-        p = self.params
-        w = jnp.asarray(weights, dtype=float)
+        ar = self.arrays
         v, _ = self._solve(p, self._reward(p, w), self._start(p, w))
         pi = jax.nn.softmax(self._reward(p, w) + g * self._expect(p, v), axis=1)
-        ar = self.arrays
-        phi_pi = jnp.einsum("sa,saf->sf", pi, p["features"].reshape(ar.n_states, ar.n_actions,
-                                                                    -1))
+        phi = p["features"].reshape(ar.n_states, ar.n_actions, -1)
+        phi_pi = jnp.einsum("sa,saf->fs", pi, phi)
         op = lambda x: x - g * jnp.sum(pi * self._expect(p, x), axis=1)  # noqa: E731
-        cols = [gmres(op, phi_pi[:, i], tol=1e-10, restart=RESTART, maxiter=50)[0]
-                for i in range(phi_pi.shape[1])]
-        self.params = {**p, "v_anchor": v, "jac": jnp.stack(cols, axis=1),
-                       "z_anchor": self.beta * w}
+        cols = jax.vmap(lambda b: gmres(op, b, tol=1e-10, restart=RESTART, maxiter=50)[0])
+        return v, cols(phi_pi).T
