@@ -13,7 +13,7 @@ from pathlib import Path
 
 from bayesirl.bench import design, engine, large, large_report, report, sampler
 
-SUITES = ("engine", "sampler", "design")
+SUITES = ("engine", "sampler", "design", "competitor")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -28,8 +28,22 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
+    if "competitor" in only:
+        log("competitor: against JAX + numpyro")
+        results["competitor"] = _competitor(quick, log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
+
+
+def _competitor(quick: bool, log) -> dict:
+    """The JAX + numpyro comparison, or a note naming the missing ``bench`` extra."""
+    from bayesirl.bench import competitor, jaxmodel
+
+    try:
+        return competitor.run(quick=quick, log=log)
+    except jaxmodel.MissingExtra as exc:
+        log(f"  skipped: {exc}")
+        return {"missing": str(exc)}
 
 
 def _keep_earlier(results: dict, folder: Path, only) -> None:

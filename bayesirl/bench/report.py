@@ -192,6 +192,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         lines += _sampler_md(results["sampler"])
     if "design" in results:
         lines += _design_md(results["design"])
+    if "competitor" in results:
+        from bayesirl.bench.competitor_report import markdown
+
+        lines += markdown(results["competitor"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 
