@@ -49,7 +49,7 @@ def _gradient_md(rows: list[dict]) -> list[str]:
            "posterior mode in a fit); `vi` relative value iteration, `newton` Newton-GMRES; "
            "iterations = sweeps (`vi`) or Newton steps (`newton`) at the last point.", "",
            "| problem | discount | ours ms | JAX vi ms (iters) | JAX newton ms (iters) "
-           "| ours / best JAX | ours sweeps | Newton steps | value / adjoint mat-vecs "
+           "| ours time / best JAX time | ours sweeps | Newton steps | value / adjoint mat-vecs "
            "| JAX compile s (vi / newton) | load |",
            "|---|---|---|---|---|---|---|---|---|---|---|"]
     for r in rows:
