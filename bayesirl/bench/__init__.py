@@ -13,7 +13,7 @@ from pathlib import Path
 
 from bayesirl.bench import design, engine, large, large_report, report, ridge, sampler
 
-SUITES = ("engine", "sampler", "design", "ridge")
+SUITES = ("engine", "sampler", "design", "ridge", "competitor")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -31,8 +31,22 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "ridge" in only:
         log("ridge: diagonal and dense mass matrix on a collinear pair")
         results["ridge"] = ridge.run(quick=quick, log=log)
+    if "competitor" in only:
+        log("competitor: against JAX + numpyro")
+        results["competitor"] = _competitor(quick, log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
+
+
+def _competitor(quick: bool, log) -> dict:
+    """The JAX + numpyro comparison, or a note naming the missing ``bench`` extra."""
+    from bayesirl.bench import competitor, jaxmodel
+
+    try:
+        return competitor.run(quick=quick, log=log)
+    except jaxmodel.MissingExtra as exc:
+        log(f"  skipped: {exc}")
+        return {"missing": str(exc)}
 
 
 def _keep_earlier(results: dict, folder: Path, only) -> None:

@@ -196,6 +196,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         from bayesirl.bench.ridge import markdown
 
         lines += markdown(results["ridge"])
+    if "competitor" in results:
+        from bayesirl.bench.competitor_report import markdown
+
+        lines += markdown(results["competitor"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 
