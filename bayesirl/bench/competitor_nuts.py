@@ -6,7 +6,7 @@ run one after another in this process, alternating between the two codes (our ch
 their chain 1, our chain 2, ...), so both meet the same machine load; each chain is timed
 by process CPU time, split into warmup and sampling.
 
-Ours: ``sample(chains=1, processes=1)`` per chain with its own likelihood; the sampling
+Ours: ``sample(chains=1, backend=Processes(1))`` per chain with its own likelihood; the sampling
 share of its CPU time is its share of gradient evaluations (as in ``bench/sampler.py``).
 numpyro: its NUTS kernel driven one compiled step at a time (``_Numpyro`` says why),
 warmup and sampling timed separately, the one compilation reported and kept out. Its
@@ -24,8 +24,9 @@ import scipy.optimize
 from bayesirl import arviz_compat
 from bayesirl.bench import jaxmodel
 from bayesirl.bench.problems import demonstrations_for
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.posterior import sample
 
 PRIOR_SCALE = 5.0  # bayesirl.priors.DEFAULT_SCALE, the default prior of sample()
 
@@ -101,7 +102,7 @@ class _Numpyro:
 def _our_chain(mdp, demos, draws: int, warmup: int, seed: int) -> dict:
     lik = BoltzmannLikelihood(mdp, demos)
     t0 = time.process_time()
-    post = sample(lik, chains=1, draws=draws, warmup=warmup, seed=seed, processes=1,
+    post = sample(lik, chains=1, draws=draws, warmup=warmup, seed=seed, backend=Processes(1),
                   progress=False)
     total = time.process_time() - t0
     sampling_evals = int(post.stats["n_steps"].sum())

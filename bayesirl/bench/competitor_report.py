@@ -83,7 +83,7 @@ def _nuts_md(rows: list[dict]) -> list[str]:
         return []
     out = ["### NUTS: bulk-ESS per CPU second", "",
            "4 chains each, run alternately in one process (ours `sample(chains=1, "
-           "processes=1)` per chain; numpyro's NUTS kernel one compiled step at a time); "
+           "backend=Processes(1))` per chain; numpyro's NUTS kernel one compiled step at a time); "
            "min bulk-ESS over the 8 weights; sampling CPU = after warmup. Mean gap: largest "
            "difference of the two posterior means in Monte-Carlo standard errors.", "",
            "| problem | draws / warmup | ours ESS/CPU-s | numpyro ESS/CPU-s | ours / numpyro "
