@@ -5,7 +5,8 @@ used by the library itself. JAX and numpyro come from the ``bench`` extra
 (``pip install 'bayesirl[bench]'``) and are imported on first use; :func:`require` says what
 to install when they are missing.
 
-The model is ``BoltzmannLikelihood(q_function="soft")`` of a discounted MDP with a fixed rationality:
+The model is ``BoltzmannLikelihood(q_function="soft")`` of a discounted MDP with a fixed
+rationality:
 
     Q = beta phi.w + g P V,   V = logsumexp_a Q,   L = sum_t log pi(a_t | s_t),
 
