@@ -5,13 +5,25 @@ evidence (state-only episodes, comparisons between episodes, observed transition
 estimated dynamics) is one new module with a class satisfying :class:`EvidenceTerm`.
 """
 
-from bayesirl.evidence.boltzmann import BoltzmannTerm
-from bayesirl.evidence.comparisons import ComparisonTerm, discounted_features
-from bayesirl.evidence.groups import demonstrator_evidence, pooled_evidence, weights_name
-from bayesirl.evidence.model import Evidence
-from bayesirl.evidence.partial import PartialEpisodes, PartialTerm, state_only
-from bayesirl.evidence.term import EvidenceTerm, Pointwise, PointwiseTerm, TermValue
+from bayesirl.lazy import exports
 
-__all__ = ["BoltzmannTerm", "ComparisonTerm", "Evidence", "EvidenceTerm", "PartialEpisodes",
-           "PartialTerm", "Pointwise", "PointwiseTerm", "TermValue", "demonstrator_evidence",
-           "discounted_features", "pooled_evidence", "state_only", "weights_name"]
+# Imported on first use (bayesirl.lazy): reading a problem file needs only the names of
+# quantities (``weights_name``), and `bayesirl check` loads no numba.
+_EXPORTS = {
+    "BoltzmannTerm": "bayesirl.evidence.boltzmann",
+    "ComparisonTerm": "bayesirl.evidence.comparisons",
+    "discounted_features": "bayesirl.evidence.comparisons",
+    "demonstrator_evidence": "bayesirl.evidence.groups",
+    "pooled_evidence": "bayesirl.evidence.groups",
+    "weights_name": "bayesirl.evidence.groups",
+    "Evidence": "bayesirl.evidence.model",
+    "PartialEpisodes": "bayesirl.evidence.episodes",
+    "PartialTerm": "bayesirl.evidence.partial",
+    "state_only": "bayesirl.evidence.episodes",
+    "EvidenceTerm": "bayesirl.evidence.term",
+    "Pointwise": "bayesirl.evidence.term",
+    "PointwiseTerm": "bayesirl.evidence.term",
+    "TermValue": "bayesirl.evidence.term",
+}
+__all__ = sorted(_EXPORTS)
+__getattr__, __dir__ = exports(__name__, _EXPORTS, globals())

@@ -13,7 +13,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.term import EvidenceTerm, PointwiseTerm, TermValue
+from bayesirl.evidence.term import EvidenceTerm, Pointwise, PointwiseTerm, TermValue
 
 
 class Evidence:
@@ -66,7 +66,10 @@ class Evidence:
 
         ``lengths`` are the actions per episode of the whole demonstration set. Several
         terms explaining the same episode add up; per-step values are given only when every
-        term gives them. Raises InputError if a term cannot split its log density.
+        term gives them. Raises InputError if a term cannot split its log density. Terms over
+        other observations (comparison answers, episodes with unrecorded parts) give their
+        own arrays, not a :class:`Pointwise` record of demonstration episodes: they are left
+        out, so the values describe the demonstrations given everything else.
         """
         lengths = np.asarray(lengths, dtype=np.int64)
         offsets = np.concatenate([[0], np.cumsum(lengths)])
@@ -77,6 +80,8 @@ class Evidence:
                 raise InputError(f"evidence: term {term.key!r} ({type(term).__name__}) "
                                  "cannot split its log density by episode")
             part = term.pointwise(quantities)
+            if not isinstance(part, Pointwise):  # observations other than demonstrations
+                continue
             np.add.at(episode, part.episodes, part.episode)
             if part.step is None or step is None:
                 step = None

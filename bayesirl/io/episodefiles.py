@@ -22,7 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.partial import PartialEpisodes, first_impossible
+from bayesirl.evidence.episodes import PartialEpisodes, first_impossible
 from bayesirl.io.demofiles import CSV_SUFFIXES, JSONL_SUFFIXES, _action, _state, _whole
 from bayesirl.io.fields import path_argument, read_text
 from bayesirl.model import Demonstrations

@@ -17,7 +17,7 @@ from bayesirl.modelfit import compare
 from bayesirl.modelfit.compare import Comparison, Row, conclusion
 from bayesirl.modelfit.loo import EpisodeLoo
 
-SAMPLING = {"chains": 2, "draws": 150, "warmup": 150, "processes": 1, "progress": False}
+SAMPLING = {"chains": 2, "draws": 150, "warmup": 150, "backend": bi.Processes(1), "progress": False}
 
 
 @cache

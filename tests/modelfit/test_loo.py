@@ -16,7 +16,7 @@ from bayesirl import arviz_compat
 from bayesirl.modelfit import episode_loo, refit_episodes
 from bayesirl.modelfit.loo import _held_out_values
 
-SAMPLING = {"chains": 4, "draws": 500, "warmup": 300, "processes": 1, "progress": False}
+SAMPLING = {"chains": 4, "draws": 500, "warmup": 300, "backend": bi.Processes(1), "progress": False}
 
 
 @cache

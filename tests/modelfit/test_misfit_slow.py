@@ -19,7 +19,7 @@ from bayesirl.scenarios.park import PARK_WEIGHTS, park_mdp
 from modelfit.park_data import simulate_from, without
 
 DATA_SETS = 20
-SAMPLING = {"chains": 2, "draws": 300, "warmup": 200, "processes": 1, "progress": False,
+SAMPLING = {"chains": 2, "draws": 300, "warmup": 200, "backend": bi.Processes(1), "progress": False,
             "prior": bi.Normal(0.0, 5.0)}
 
 

@@ -14,7 +14,7 @@ from bayesirl.report import predictive as section
 from bayesirl.scenarios.park import PARK_WEIGHTS, park_mdp
 from modelfit.park_data import simulate_from, without
 
-SAMPLING = {"chains": 2, "draws": 200, "warmup": 200, "processes": 1, "progress": False}
+SAMPLING = {"chains": 2, "draws": 200, "warmup": 200, "backend": bi.Processes(1), "progress": False}
 
 
 @cache
