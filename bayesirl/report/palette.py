@@ -57,6 +57,10 @@ MARKER_EDGE = "#111111"
 ZERO_LINE = "#888888"
 
 # Colour maps (matplotlib names).
+# States where recorded choices fall outside the predictive band (model-fit map), on a grey
+# map of visits: vermillion keeps its hue under deuteranopia and is darker than the light greys.
+MISSED = OKABE_ITO["vermillion"]
+VISITS_MAP = "Greys"
 REWARD_MAP = "cividis"
 WIDTH_MAP = "YlGnBu"
 

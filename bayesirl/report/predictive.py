@@ -12,6 +12,7 @@ from html import escape
 import numpy as np
 from matplotlib.figure import Figure
 
+from bayesirl.report import palette
 from bayesirl.report.html_parts import figure, num, table
 from bayesirl.report.plots import style_axes
 
@@ -75,11 +76,11 @@ def miss_map(check, grid_shape) -> Figure | None:
     missed = check.missed_states[:n].reshape(rows, cols)
     fig = Figure(figsize=(6.0, max(2.8, 4.6 * rows / cols + 0.8)))
     ax = fig.add_subplot(1, 1, 1)
-    im = ax.imshow(np.log1p(visits), cmap="Greys", origin="upper", interpolation="nearest",
+    im = ax.imshow(np.log1p(visits), cmap=palette.VISITS_MAP, origin="upper", interpolation="nearest",
                    vmin=0)
     fig.colorbar(im, ax=ax, shrink=0.85, label="log(1 + recorded visits)")
     r, c = np.nonzero(missed)
-    ax.scatter(c, r, marker="X", s=110, color="#c0392b", edgecolor="white", lw=1.2,
+    ax.scatter(c, r, marker="X", s=110, color=palette.MISSED, edgecolor="white", lw=1.2,
                label="choices outside the 95% band")
     ax.set_title("states where the model does not reproduce the recorded choices", fontsize=10)
     ax.set_xlabel("column", fontsize=8)
