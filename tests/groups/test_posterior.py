@@ -121,10 +121,16 @@ def test_record_has_the_verdict_and_the_new_demonstrator():
 
 
 def test_forest_figure_has_a_panel_per_feature():
-    from bayesirl.report.forest import forest_figure
+    from bayesirl.report.forest import ALONE, forest_figure
 
     rec = demonstrator_summary(posterior("partial"))
     fig = forest_figure(rec)
     assert len(fig.axes) == 2
     labels = [t.get_text() for t in fig.axes[0].get_yticklabels()]
     assert labels == ["new demonstrator", "cai", "ben", "ana"]
+    # shrinkage: each demonstrator's alone interval is drawn beside the pooled one, at the
+    # record's numbers (the new demonstrator has none)
+    grey = [ln for ln in fig.axes[0].lines if ln.get_color() == ALONE and len(ln.get_xdata()) == 2]
+    assert sorted(tuple(ln.get_xdata()) for ln in grey) == sorted(
+        (r["alone"]["x"]["lower"], r["alone"]["x"]["upper"]) for r in rec["demonstrators"].values())
+    assert "alone" not in demonstrator_summary(posterior("separate"))["demonstrators"]["ana"]
