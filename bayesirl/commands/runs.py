@@ -105,7 +105,8 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         _demonstrators(run, posterior, level, summary, quiet)
         write_json(run.summary, summary)
         return summary
-    report = ambiguity(posterior, level=level, **options)
+    record = _group_record(posterior, level)
+    report = ambiguity(posterior, level=level, demonstrators=record, **options)
     report.to_html(run.report)
     if not summary.get("complete"):
         _mark_incomplete(run.report, summary)
@@ -114,9 +115,15 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         if not summary.get("complete"):
             print(INCOMPLETE.format(done=summary.get("draws_done")))
         print(report.table())
-    _demonstrators(run, posterior, level, summary, quiet)
+    _demonstrators(run, posterior, level, summary, quiet, record)
     write_json(run.summary, summary)
     return summary
+
+
+def _group_record(posterior, level: float) -> dict | None:
+    from bayesirl.posterior.group_summary import demonstrator_summary
+
+    return demonstrator_summary(posterior, level)
 
 
 INCOMPLETE = ("INTERRUPTED RUN: only {done} draws per chain of those requested; intervals and "
@@ -138,12 +145,12 @@ def _separate(posterior) -> bool:
 
 
 def _demonstrators(run: RunFolder, posterior, level: float, summary: dict,
-                   quiet: bool) -> None:
+                   quiet: bool, record: dict | None = None) -> None:
     """Several demonstrators: population, spread and each one's weights (summary.json,
     printed) and their forest plot (demonstrators.png)."""
-    from bayesirl.posterior.group_summary import demonstrator_summary, render
+    from bayesirl.posterior.group_summary import render
 
-    record = demonstrator_summary(posterior, level)
+    record = _group_record(posterior, level) if record is None else record
     if record is None:
         return
     summary["demonstrators"] = record

@@ -38,6 +38,8 @@ class AmbiguityReport:
     tolerance: float | None = None
     suggestions: list = field(default_factory=list)  # plain records from bayesirl.suggest
     posterior: object = field(default=None, repr=False)
+    # several demonstrators: the record of posterior.group_summary.demonstrator_summary
+    demonstrators: dict | None = field(default=None, repr=False)
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (the posterior itself is left out)."""
@@ -95,7 +97,8 @@ def _assumptions(posterior) -> dict:
 
 def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
               alpha: float | None = None, suggestions=None,
-              tolerance: float | None = None, action_names=None) -> AmbiguityReport:
+              tolerance: float | None = None, action_names=None,
+              demonstrators: dict | None = None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
@@ -123,6 +126,11 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
     action_names : sequence of str, optional
         Names of the actions (a problem file's ``actions``, a map's moves), for the action
         probability table.
+    demonstrators : dict, optional
+        Several demonstrators: the record of
+        :func:`bayesirl.posterior.group_summary.demonstrator_summary` (computed here at
+        ``level`` when omitted and the posterior has groups). The page then says that its
+        weights are the population mean and has a section on the demonstrators.
     """
     tolerance = verdicts.check_tolerance(tolerance)
     alpha = level if alpha is None else alpha
@@ -146,7 +154,16 @@ def ambiguity(posterior, level: float = 0.9, prior=None, truth=None, states=(),
         groups=entangled, tolerance=tolerance,
         suggestions=as_records(suggestions), posterior=posterior,
     )
+    if demonstrators is None and getattr(posterior, "groups", None) is not None:
+        from bayesirl.posterior.group_summary import demonstrator_summary
+
+        demonstrators = demonstrator_summary(posterior, level)
+    report.demonstrators = demonstrators
     report.verdict = headline(report)
+    if demonstrators is not None:
+        from bayesirl.report.groups_html import preamble
+
+        report.verdict = " ".join(x for x in (preamble(demonstrators), report.verdict) if x)
     return report
 
 
