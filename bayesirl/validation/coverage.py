@@ -13,7 +13,8 @@ posterior is right (averaged over the prior, Theorem 1 of Talts et al.), while t
 model's interval is centred on a compromise between the demonstrators and is as narrow as
 if they were one person: it undercovers.
 
-``python -m bayesirl.validation.coverage`` runs the replications and writes
+``python -m bayesirl.validation.coverage`` runs the replications (logging each to
+``reports/coverage-heterogeneity.jsonl``, so a stopped run continues) and writes
 ``reports/coverage-heterogeneity.json`` and ``.png``; ``--figure`` redraws the figure from
 the JSON. ``tests/groups/test_coverage_slow.py`` runs the same replications (same seed) and
 tests the counts.
@@ -23,9 +24,11 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
 import time
 from dataclasses import dataclass, field
+from multiprocessing import get_all_start_methods, get_context
 from pathlib import Path
 
 import numpy as np
@@ -35,9 +38,10 @@ from bayesirl.files import write_json
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.posterior import sample
 from bayesirl.priors import Normal
+from bayesirl.validation import runner
 from bayesirl.validation.grid import PosteriorDraws
 from bayesirl.validation.partial import PartialSBC
-from bayesirl.validation.runner import SBCResult, SBCSettings, run_sbc
+from bayesirl.validation.runner import Replication, SBCResult, SBCSettings, run_sbc
 
 LEVEL = 0.9
 REPLICATIONS = 100
@@ -132,29 +136,93 @@ def run(replications: int = REPLICATIONS, seed: int = SEED, processes: int | Non
     return {**coverage_record(result), "load_average_1min_at_start": load}
 
 
+def _to_json(rep: Replication) -> dict:
+    return {k: (v.tolist() if isinstance(v, np.ndarray) else v)
+            for k, v in rep._asdict().items()}
+
+
+def _from_json(row: dict) -> Replication:
+    arrays = {"truth", "thinned", "ranks"}
+    return Replication(**{k: (np.asarray(v, dtype=float if k != "ranks" else int)
+                              if k in arrays else tuple(v) if k == "restarts" else v)
+                          for k, v in row.items()})
+
+
+def run_logged(path: Path, replications: int = REPLICATIONS, seed: int = SEED,
+               processes: int | None = None) -> SBCResult:
+    """:func:`run` that appends each replication to ``path`` (JSON Lines) as it finishes
+    and skips those already there, so a stopped run continues where it was. Replication
+    ``r`` depends only on ``r`` and ``seed`` (see :mod:`~bayesirl.validation.runner`), so
+    the continued run's results equal an uninterrupted one's; the first ``k`` of them are
+    also exactly the first ``k`` of any longer run."""
+    done = {}
+    if path.exists():
+        for line in path.read_text(encoding="utf-8").splitlines():
+            if line.strip():
+                rep = _from_json(json.loads(line))
+                done[rep.index] = rep
+    tasks = [t for t in enumerate(np.random.SeedSequence(seed).spawn(replications))
+             if t[0] not in done]
+    problem, t0 = HeterogeneityCoverage(), time.perf_counter()
+    n_proc = max(1, min(processes or os.cpu_count() or 1, len(tasks) or 1))
+    ctx = get_context("fork" if "fork" in get_all_start_methods() else "spawn")
+    with path.open("a", encoding="utf-8") as out, ctx.Pool(
+            n_proc, initializer=runner._install, initargs=(problem, SETTINGS)) as pool:
+        for rep in pool.imap_unordered(runner._work, tasks, chunksize=1):
+            out.write(json.dumps(_to_json(rep)) + "\n")
+            out.flush()
+            done[rep.index] = rep
+            print(f"{len(done)}/{replications} replications, "
+                  f"{time.perf_counter() - t0:.0f} s", flush=True)
+    reps = [done[i] for i in sorted(done) if i < replications]
+    return SBCResult(problem.names, problem.describe(), SETTINGS, seed, reps, n_proc,
+                     time.perf_counter() - t0)
+
+
+def first_complete(path: Path) -> SBCResult:
+    """The longest unbroken prefix ``0..k-1`` of the replications logged in ``path``."""
+    reps = {}
+    for line in path.read_text(encoding="utf-8").splitlines():
+        if line.strip():
+            rep = _from_json(json.loads(line))
+            reps[rep.index] = rep
+    k = 0
+    while k in reps:
+        k += 1
+    problem = HeterogeneityCoverage()
+    return SBCResult(problem.names, problem.describe(), SETTINGS, SEED,
+                     [reps[i] for i in range(k)], 0, math.nan)
+
+
 def main(argv=None) -> int:
-    """``python -m bayesirl.validation.coverage [--replications N] [--figure JSON]``."""
+    """``python -m bayesirl.validation.coverage [--replications N] [--figure JSON]``.
+
+    Runs (or continues) the replications, logging each to ``OUT.jsonl``, then writes the
+    record ``OUT`` and its figure. ``--prefix`` writes the record of the replications
+    ``0..k-1`` logged so far instead (for a run stopped early; the record says ``k``).
+    """
     ap = argparse.ArgumentParser(prog="python -m bayesirl.validation.coverage")
     ap.add_argument("--replications", type=int, default=REPLICATIONS)
     ap.add_argument("--processes", type=int, default=None)
     ap.add_argument("--out", type=Path, default=OUT)
-    ap.add_argument("--figure", type=Path, default=None,
-                    help="only redraw the figure from this record")
+    ap.add_argument("--figure", action="store_true", help="only redraw the figure of --out")
+    ap.add_argument("--prefix", action="store_true",
+                    help="record the replications logged so far, without running more")
     args = ap.parse_args(argv)
     from bayesirl.validation.coverage_plot import coverage_figure
     from bayesirl.validation.plots import save_png
 
-    if args.figure is not None:
-        record = json.loads(args.figure.read_text(encoding="utf-8"))
-        save_png(coverage_figure(record), args.figure.with_suffix(".png"))
-        return 0
-    t0 = time.perf_counter()
-    record = run(args.replications, processes=args.processes,
-                 log=lambda s: print(s, flush=True))
-    args.out.parent.mkdir(parents=True, exist_ok=True)
-    write_json(args.out, record)
+    log = args.out.with_suffix(".jsonl")
+    if not args.figure:
+        load = round(os.getloadavg()[0], 2)
+        args.out.parent.mkdir(parents=True, exist_ok=True)
+        result = (first_complete(log) if args.prefix else
+                  run_logged(log, args.replications, processes=args.processes))
+        record = {**coverage_record(result), "load_average_1min_at_start": load}
+        write_json(args.out, record)
+        print(json.dumps(record["models"], indent=1))
+    record = json.loads(args.out.read_text(encoding="utf-8"))
     save_png(coverage_figure(record), args.out.with_suffix(".png"))
-    print(json.dumps(record["models"], indent=1), f"{time.perf_counter() - t0:.0f} s")
     return 0
 
 
