@@ -192,6 +192,10 @@ def _other_parsers(sub) -> None:
     sug.add_argument("--outer", type=_positive, default=512, metavar="N",
                      help="outer Monte-Carlo samples per candidate (default 512); more give a "
                           "more settled ranking, in proportional time")
+    sug.add_argument("--demonstrator", metavar="NAME",
+                     help="a run with several demonstrators: rank more demonstrations from "
+                          "this demonstrator (required there; a new demonstrator is not "
+                          "supported)")
     sug.add_argument("--report", action="store_true",
                      help="also add the suggestions (table and map markers) to the run's "
                           "report.html")

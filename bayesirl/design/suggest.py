@@ -12,6 +12,7 @@ import numpy as np
 from bayesirl.design import estimators as est
 from bayesirl.design import ranking
 from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
+from bayesirl.design.groups import simulation_weights
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
@@ -117,7 +118,8 @@ N_OUTER = 512
 def suggest(posterior, candidates="start-states", budget: int = 1, target=None, seed: int = 0,
             length: int | None = None, n_outer: int = N_OUTER, max_draws: int | None = None,
             chunk_bytes: int = CHUNK_BYTES, cache_bytes: int = CACHE_BYTES,
-            progress: bool = False, cluster=None) -> list[Suggestion]:
+            progress: bool = False, cluster=None,
+            demonstrator: str | None = None) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -153,6 +155,11 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
         and groups, so the same seed gives bit-identical suggestions with or without a
         cluster, whatever its number of workers. The greedy picks stay sequential. Needs
         ``bayesirl[cluster]``.
+    demonstrator : str, optional
+        Required for a posterior with several demonstrators (and refused otherwise): rank
+        more demonstrations from this demonstrator (see :mod:`bayesirl.design.groups`);
+        ``target`` still refers to the headline (population mean) weights. A new
+        demonstrator is not supported.
 
     Returns
     -------
@@ -180,8 +187,10 @@ def suggest(posterior, candidates="start-states", budget: int = 1, target=None, 
     if cluster is not None:
         dask_cluster.check_arguments(cluster, None, False, None)
     weights, betas = posterior_draws(posterior, max_draws)
+    own = simulation_weights(posterior, demonstrator, max_draws)
     g = target_values(posterior, weights, target)
-    policies = DrawPolicies(mdp, weights, betas, lik.q, chunk_bytes, cache_bytes)
+    policies = DrawPolicies(mdp, weights if own is None else own, betas, lik.q, chunk_bytes,
+                            cache_bytes)
     outer = outer_samples(policies.n, int(n_outer), seed)
     gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)

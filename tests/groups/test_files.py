@@ -164,6 +164,10 @@ def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
     assert post.groups["demonstrators"] == ["ida", "jon"]
     assert main(["suggest", str(out)]) == 2  # bad input, not our bug
     assert "several demonstrators" in capsys.readouterr().err
+    assert main(["suggest", str(out), "--demonstrator", "jon", "--outer", "8", "--quiet"]) == 0
+    assert json.loads((out / "suggestions.json").read_text())["settings"]["demonstrator"] == "jon"
+    page = (out / "report.html").read_text()
+    assert 'id="demonstrators"' in page and "Population mean." in page
 
 
 def test_fit_with_separate_rewards_writes_no_population_report(tmp_path, capsys):
