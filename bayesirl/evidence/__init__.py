@@ -6,9 +6,14 @@ estimated dynamics) is one new module with a class satisfying :class:`EvidenceTe
 """
 
 from bayesirl.evidence.boltzmann import BoltzmannTerm
-from bayesirl.evidence.groups import demonstrator_evidence, pooled_evidence, weights_name
+from bayesirl.evidence.groups import (
+    demonstrator_evidence,
+    pooled_evidence,
+    rationality_name,
+    weights_name,
+)
 from bayesirl.evidence.model import Evidence
 from bayesirl.evidence.term import EvidenceTerm, TermValue
 
 __all__ = ["BoltzmannTerm", "Evidence", "EvidenceTerm", "TermValue", "demonstrator_evidence",
-           "pooled_evidence", "weights_name"]
+           "pooled_evidence", "rationality_name", "weights_name"]
