@@ -107,6 +107,8 @@ def demonstrator_summary(posterior, level: float = 0.9,
                                  for i, n in enumerate(names)}}
         if who in alone:
             rows[who]["alone"] = alone[who]
+        if "demonstrator_rationality" in g:
+            rows[who]["rationality"] = _row(g["demonstrator_rationality"][..., k], level)
     out["demonstrators"] = rows
     return out
 
@@ -118,6 +120,11 @@ def render(record: dict) -> str:
     lines = [f"{len(record['demonstrators'])} demonstrators, pooling {record['pooling']!r}"]
     if "heterogeneity" in record:
         lines.append(record["heterogeneity"]["sentence"] + f" (at the {level:.0%} level)")
+    own = [(who, r["rationality"]) for who, r in record["demonstrators"].items()
+           if "rationality" in r]
+    if own:
+        lines += ["", "rationality of each demonstrator (around the population's)",
+                  head] + [_line(who, r) for who, r in own]
     for name in record["features"]:
         lines += ["", f"{name}", head]
         if "population" in record:
