@@ -11,9 +11,9 @@ import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
-from bayesirl.bench import design, engine, large, large_report, report, sampler
+from bayesirl.bench import design, engine, groups, large, large_report, report, sampler
 
-SUITES = ("engine", "sampler", "design")
+SUITES = ("engine", "sampler", "design", "groups")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -28,6 +28,9 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "design" in only:
         log("design: rank all query and start states")
         results["design"] = design.run(quick=quick, log=log)
+    if "groups" in only:
+        log("groups: partial pooling of 10 and 30 demonstrators")
+        results["groups"] = groups.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 

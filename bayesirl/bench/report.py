@@ -192,6 +192,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         lines += _sampler_md(results["sampler"])
     if "design" in results:
         lines += _design_md(results["design"])
+    if "groups" in results:
+        from bayesirl.bench.groups import markdown
+
+        lines += markdown(results["groups"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 
