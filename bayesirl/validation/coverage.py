@@ -219,6 +219,10 @@ def main(argv=None) -> int:
         result = (first_complete(log) if args.prefix else
                   run_logged(log, args.replications, processes=args.processes))
         record = {**coverage_record(result), "load_average_1min_at_start": load}
+        if args.prefix:  # the load now says nothing about the run that made the log
+            record.update(load_average_1min_at_start=None, load_average_1min_at_end=None,
+                          note=f"first {len(result.replications)} replications of a stopped "
+                               "run, recorded with --prefix")
         write_json(args.out, record)
         print(json.dumps(record["models"], indent=1))
     record = json.loads(args.out.read_text(encoding="utf-8"))
