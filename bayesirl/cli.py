@@ -205,6 +205,10 @@ def _other_parsers(sub) -> None:
     sug.add_argument("--outer", type=_positive, default=512, metavar="N",
                      help="outer Monte-Carlo samples per candidate (default 512); more give a "
                           "more settled ranking, in proportional time")
+    sug.add_argument("--demonstrator", metavar="NAME",
+                     help="a run with several demonstrators: rank more demonstrations from "
+                          "this demonstrator (required there; a new demonstrator is not "
+                          "supported)")
     sug.add_argument("--report", action="store_true",
                      help="also add the suggestions (table and map markers) to the run's "
                           "report.html")
@@ -283,7 +287,7 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--quick", action="store_true",
                        help="small sizes only (a smoke run; the committed report is a full run)")
     bench.add_argument("--only", default="",
-                       help="comma-separated suites to run: engine, sampler, design "
+                       help="comma-separated suites to run: engine, sampler, design, groups "
                             "(default: all)")
     _large_options(bench)
     return parser

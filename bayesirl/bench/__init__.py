@@ -11,9 +11,9 @@ import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
-from bayesirl.bench import design, engine, large, large_report, report, ridge, sampler
+from bayesirl.bench import design, engine, groups, large, large_report, report, ridge, sampler
 
-SUITES = ("engine", "sampler", "design", "ridge", "competitor")
+SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -34,6 +34,9 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "competitor" in only:
         log("competitor: against JAX + numpyro")
         results["competitor"] = _competitor(quick, log)
+    if "groups" in only:
+        log("groups: partial pooling of 10 and 30 demonstrators")
+        results["groups"] = groups.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 

@@ -200,6 +200,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         from bayesirl.bench.competitor_report import markdown
 
         lines += markdown(results["competitor"])
+    if "groups" in results:
+        from bayesirl.bench.groups import markdown
+
+        lines += markdown(results["groups"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 

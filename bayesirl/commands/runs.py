@@ -147,7 +147,8 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         _demonstrators(run, posterior, level, summary, quiet)
         write_json(run.summary, summary)
         return summary
-    report = ambiguity(posterior, level=level, **options)
+    record = _group_record(posterior, level)
+    report = ambiguity(posterior, level=level, demonstrators=record, **options)
     _attach_predictive_check(report, posterior, summary)
     report.to_html(run.report)
     if not summary.get("complete"):
@@ -159,9 +160,15 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
         print(report.table())
         if "verdict" in summary.get("model_fit", {}):
             print("model fit: " + " ".join(summary["model_fit"]["verdict"]))
-    _demonstrators(run, posterior, level, summary, quiet)
+    _demonstrators(run, posterior, level, summary, quiet, record)
     write_json(run.summary, summary)
     return summary
+
+
+def _group_record(posterior, level: float) -> dict | None:
+    from bayesirl.posterior.group_summary import demonstrator_summary
+
+    return demonstrator_summary(posterior, level)
 
 
 INCOMPLETE = ("INTERRUPTED RUN: only {done} draws per chain of those requested; intervals and "
@@ -183,12 +190,12 @@ def _separate(posterior) -> bool:
 
 
 def _demonstrators(run: RunFolder, posterior, level: float, summary: dict,
-                   quiet: bool) -> None:
+                   quiet: bool, record: dict | None = None) -> None:
     """Several demonstrators: population, spread and each one's weights (summary.json,
     printed) and their forest plot (demonstrators.png)."""
-    from bayesirl.posterior.group_summary import demonstrator_summary, render
+    from bayesirl.posterior.group_summary import render
 
-    record = demonstrator_summary(posterior, level)
+    record = _group_record(posterior, level) if record is None else record
     if record is None:
         return
     summary["demonstrators"] = record

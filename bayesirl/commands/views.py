@@ -151,14 +151,18 @@ def suggest_command(args) -> int:
         print("warning: the run's sampler diagnostics failed "
               f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
               "may be wrong: run the fit longer first", file=sys.stderr)
-    if getattr(posterior, "groups", None) is not None:
-        raise InputError(f"{run.root}: suggestions for a run with several demonstrators "
-                         "(pooling separate or partial) are not available yet; the designer "
-                         "would treat every episode as one demonstrator's")
+    who = getattr(args, "demonstrator", None)
+    if getattr(posterior, "groups", None) is not None and who is None:
+        raise InputError(f"{run.root}: this run has several demonstrators; name whose "
+                         "demonstrations to rank with --demonstrator NAME (one of "
+                         f"{list(posterior.groups['demonstrators'])}); ranking a new "
+                         "demonstrator is not supported")
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
               "budget": args.budget, "target": args.target, "seed": args.seed,
               "n_outer": args.outer}
+    if who is not None:
+        kwargs["demonstrator"] = who
     if "progress" in inspect.signature(design.suggest).parameters:
         kwargs["progress"] = not args.quiet
     records = as_records(design.suggest(posterior, **kwargs, **where))

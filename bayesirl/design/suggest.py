@@ -13,6 +13,7 @@ from bayesirl.design import estimators as est
 from bayesirl.design import ranking
 from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
 from bayesirl.design.listing import Suggestions
+from bayesirl.design.groups import simulation_weights
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
@@ -129,7 +130,8 @@ def suggest(posterior: Posterior,
             seed: int = 0, length: int | None = None, n_outer: int = N_OUTER,
             max_draws: int | None = None, chunk_bytes: int = CHUNK_BYTES,
             cache_bytes: int = CACHE_BYTES, progress: bool = False,
-            backend: Backend | None = None) -> list[Suggestion]:
+            backend: Backend | None = None,
+            demonstrator: str | None = None) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -165,6 +167,11 @@ def suggest(posterior: Posterior,
         the same blocks and groups, so the same seed gives bit-identical suggestions with or
         without a cluster, whatever its number of workers. The greedy picks stay sequential.
         Needs ``bayesirl[cluster]``.
+    demonstrator : str, optional
+        Required for a posterior with several demonstrators (and refused otherwise): rank
+        more demonstrations from this demonstrator (see :mod:`bayesirl.design.groups`);
+        ``target`` still refers to the headline (population mean) weights. A new
+        demonstrator is not supported.
 
     Returns
     -------
@@ -194,8 +201,10 @@ def suggest(posterior: Posterior,
     if int(n_outer) != n_outer or n_outer < 2:
         raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
     weights, betas = posterior_draws(posterior, max_draws)
+    own = simulation_weights(posterior, demonstrator, max_draws)
     g = target_values(posterior, weights, target)
-    policies = DrawPolicies(mdp, weights, betas, lik.q_function, chunk_bytes, cache_bytes)
+    policies = DrawPolicies(mdp, weights if own is None else own, betas, lik.q_function,
+                            chunk_bytes, cache_bytes)
     outer = outer_samples(policies.n, int(n_outer), seed)
     gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)

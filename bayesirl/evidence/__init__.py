@@ -15,6 +15,7 @@ _EXPORTS = {
     "discounted_features": "bayesirl.evidence.comparisons",
     "demonstrator_evidence": "bayesirl.evidence.groups",
     "pooled_evidence": "bayesirl.evidence.groups",
+    "rationality_name": "bayesirl.evidence.groups",
     "weights_name": "bayesirl.evidence.groups",
     "Evidence": "bayesirl.evidence.model",
     "PartialEpisodes": "bayesirl.evidence.episodes",

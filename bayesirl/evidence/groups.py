@@ -23,6 +23,11 @@ def weights_name(index: int) -> str:
     return f"weights/{index}"
 
 
+def rationality_name(index: int) -> str:
+    """The quantity holding demonstrator ``index``'s own rationality (when they have one)."""
+    return f"rationality/{index}"
+
+
 def likelihood_settings(likelihood) -> dict:
     """Every constructor setting of ``likelihood`` but its MDP and demonstrations (so a
     setting added to BoltzmannLikelihood later reaches the per-demonstrator copies too)."""
@@ -42,12 +47,16 @@ def split_likelihood(likelihood) -> list[BoltzmannLikelihood]:
             for episodes in demos.groups().values()]
 
 
-def demonstrator_evidence(likelihood) -> Evidence:
-    """Evidence with term ``d{i}`` reading ``weights/{i}`` for the i-th demonstrator."""
+def demonstrator_evidence(likelihood, own_rationality: bool = False) -> Evidence:
+    """Evidence with term ``d{i}`` reading ``weights/{i}`` for the i-th demonstrator, and
+    ``rationality/{i}`` instead of the shared ``rationality`` if ``own_rationality``."""
     parts = split_likelihood(likelihood)
     where = list(likelihood.demos.groups().values())
     return Evidence([BoltzmannTerm(lik, key=f"d{i}", weights=weights_name(i),
-                                   episodes=where[i]) for i, lik in enumerate(parts)])
+                                   rationality=(rationality_name(i) if own_rationality
+                                                else "rationality"),
+                                   episodes=where[i])
+                     for i, lik in enumerate(parts)])
 
 
 def pooled_evidence(likelihood) -> Evidence:

@@ -15,16 +15,21 @@ def group_draws(model, thetas: np.ndarray) -> dict:
     g, f = model.n_groups, len(model.feature_names)
     weights = np.empty((c, d, g, f))
     spread = np.empty((c, d, f)) if model.partial else None
+    own = np.empty((c, d, g)) if getattr(model, "_rat", None) is not None else None
     for i in range(c):
         for j in range(d):
             q = model.draw(thetas[i, j])
             weights[i, j] = q["weights"]
             if spread is not None:
                 spread[i, j] = q["spread"]
+            if own is not None:
+                own[i, j] = q["rationalities"]
     out = {"demonstrators": list(model.group_names), "demonstrator_weights": weights,
            "pooling": model.pooling.kind}
     if spread is not None:
         out["spread"] = spread
+    if own is not None:
+        out["demonstrator_rationality"] = own
     return out
 
 
@@ -33,7 +38,10 @@ def group_names(groups: dict | None, features) -> tuple[str, ...]:
     if groups is None:
         return ()
     spread = tuple(f"spread[{n}]" for n in features) if "spread" in groups else ()
-    return spread + tuple(f"{n}[{who}]" for who in groups["demonstrators"] for n in features)
+    own = (tuple(f"rationality[{who}]" for who in groups["demonstrators"])
+           if "demonstrator_rationality" in groups else ())
+    return (spread + tuple(f"{n}[{who}]" for who in groups["demonstrators"] for n in features)
+            + own)
 
 
 def group_columns(groups: dict | None) -> list[np.ndarray]:
@@ -45,6 +53,9 @@ def group_columns(groups: dict | None) -> list[np.ndarray]:
         cols += [groups["spread"][..., i] for i in range(groups["spread"].shape[-1])]
     w = groups["demonstrator_weights"]
     cols += [w[..., k, i] for k in range(w.shape[2]) for i in range(w.shape[3])]
+    if "demonstrator_rationality" in groups:
+        r = groups["demonstrator_rationality"]
+        cols += [r[..., k] for k in range(r.shape[2])]
     return cols
 
 
@@ -69,6 +80,9 @@ def add_groups(groups: dict | None, post: dict, dims: dict, coords: dict) -> Non
         dims["spread"] = ["feature"]
     post["demonstrator_weights"] = groups["demonstrator_weights"]
     dims["demonstrator_weights"] = ["demonstrator", "feature"]
+    if "demonstrator_rationality" in groups:
+        post["demonstrator_rationality"] = groups["demonstrator_rationality"]
+        dims["demonstrator_rationality"] = ["demonstrator"]
     coords["demonstrator"] = list(groups["demonstrators"])
 
 
@@ -81,4 +95,6 @@ def read_groups(post) -> dict | None:
            "pooling": "partial" if "spread" in post else "separate"}
     if "spread" in post:
         out["spread"] = post["spread"].values
+    if "demonstrator_rationality" in post:
+        out["demonstrator_rationality"] = post["demonstrator_rationality"].values
     return out

@@ -66,12 +66,15 @@ def _row(x: np.ndarray, level: float) -> dict:
 
 
 def demonstrator_summary(posterior, level: float = 0.9,
-                         negligible: float = NEGLIGIBLE_SPREAD) -> dict | None:
+                         negligible: float = NEGLIGIBLE_SPREAD,
+                         with_alone: bool = True) -> dict | None:
     """Population weights and spread (partial pooling) and each demonstrator's weights.
 
     With partial pooling also the weights to expect from a new demonstrator and a
-    heterogeneity verdict per feature (see :func:`heterogeneity`). Returns None for a
-    posterior of one pooled demonstrator.
+    heterogeneity verdict per feature (see :func:`heterogeneity`) and, unless
+    ``with_alone`` is False, each demonstrator's estimate from their own episodes alone
+    (``demonstrators[who]["alone"]``, see :mod:`bayesirl.posterior.alone`), which shows the
+    shrinkage. Returns None for a posterior of one pooled demonstrator.
     """
     g = posterior.groups
     if g is None:
@@ -90,12 +93,22 @@ def demonstrator_summary(posterior, level: float = 0.9,
                                  pinned=tuple(posterior.model.pin))
         out["heterogeneity"] = {"negligible": negligible, "verdicts": verdicts,
                                 "sentence": verdict_sentence(verdicts, negligible)}
+    alone = {}
+    if g["pooling"] == "partial" and with_alone:
+        from bayesirl.posterior.alone import METHOD, alone_estimates
+
+        alone = alone_estimates(posterior.model, level)
+        out["alone_method"] = METHOD
     rows = {}
     for k, who in enumerate(g["demonstrators"]):
         own = demos.subset(episodes[who])
         rows[who] = {"episodes": own.n_episodes, "steps": own.n_steps,
                      "weights": {n: _row(g["demonstrator_weights"][..., k, i], level)
                                  for i, n in enumerate(names)}}
+        if who in alone:
+            rows[who]["alone"] = alone[who]
+        if "demonstrator_rationality" in g:
+            rows[who]["rationality"] = _row(g["demonstrator_rationality"][..., k], level)
     out["demonstrators"] = rows
     return out
 
@@ -107,6 +120,11 @@ def render(record: dict) -> str:
     lines = [f"{len(record['demonstrators'])} demonstrators, pooling {record['pooling']!r}"]
     if "heterogeneity" in record:
         lines.append(record["heterogeneity"]["sentence"] + f" (at the {level:.0%} level)")
+    own = [(who, r["rationality"]) for who, r in record["demonstrators"].items()
+           if "rationality" in r]
+    if own:
+        lines += ["", "rationality of each demonstrator (around the population's)",
+                  head] + [_line(who, r) for who, r in own]
     for name in record["features"]:
         lines += ["", f"{name}", head]
         if "population" in record:
@@ -115,6 +133,11 @@ def render(record: dict) -> str:
             lines.append(_line("a new demonstrator", record["new_demonstrator"][name]))
         for who, r in record["demonstrators"].items():
             lines.append(_line(f"{who} ({r['steps']} steps)", r["weights"][name]))
+            own = r.get("alone", {})
+            if name in own:
+                lines.append(_line("  alone (Laplace)", own[name]))
+            elif "failed" in own and name == record["features"][0]:
+                lines.append(f"  alone: {own['failed']}")
     return "\n".join(lines)
 
 

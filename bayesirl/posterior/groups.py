@@ -14,7 +14,8 @@ the rationality. Pinned weights are the same for every demonstrator (no mu, tau 
 them). The rationality is one shared number, fixed or sampled as in the pooled model.
 
 Unconstrained vector ``theta``: partial = (mu on its prior's scale (k), log tau (k, unless
-the spread is fixed), z (G x k, demonstrator-major), log beta if sampled); separate =
+the spread is fixed), z (G x k, demonstrator-major), with per-demonstrator rationality
+the block of :mod:`~bayesirl.posterior.group_rationality`, log beta if sampled); separate =
 (w_d on the prior's scale, G x k, then log beta). ``k`` is the number of free features.
 """
 
@@ -26,7 +27,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from bayesirl.errors import InputError, SolverError
-from bayesirl.evidence.groups import weights_name
+from bayesirl.evidence.groups import rationality_name, weights_name
+from bayesirl.posterior.group_rationality import RationalityBlock
 from bayesirl.posterior.model import (
     _LOG_MAX,
     PosteriorModel,
@@ -55,10 +57,17 @@ class Pooling:
     spread : HalfNormal or float
         ``partial`` only: the prior of the per-feature spread ``tau`` or a fixed value
         (``0`` makes every demonstrator's weights the population's).
+    rationality_spread : HalfNormal, float or None
+        ``partial`` only: None (default) gives every demonstrator the one rationality;
+        otherwise each demonstrator's rationality is ``beta_d = beta * exp(s * u_d)``,
+        ``u_d ~ N(0, 1)``, around the sampled population rationality ``beta`` (which then
+        needs a LogNormal prior and a pinned weight, as in the pooled model), with the
+        spread ``s`` of log-rationalities given this half-normal prior or fixed.
     """
 
     kind: str = "pooled"
     spread: HalfNormal | float = HalfNormal(DEFAULT_SPREAD)
+    rationality_spread: HalfNormal | float | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
@@ -68,18 +77,35 @@ class Pooling:
             if not (np.isfinite(v) and v >= 0):
                 raise InputError("pooling: a fixed spread must be a number >= 0; got "
                                  f"{self.spread!r}")
+        rs = self.rationality_spread
+        if rs is not None and self.kind != "partial":
+            raise InputError(f"pooling: per-demonstrator rationality needs partial pooling; "
+                             f"kind is {self.kind!r}")
+        if rs is not None and not isinstance(rs, HalfNormal):
+            v = _number(rs)
+            if not (np.isfinite(v) and v >= 0):
+                raise InputError("pooling: a fixed rationality spread must be a number >= 0; "
+                                 f"got {rs!r}")
 
     def spec(self) -> dict:
         """JSON-ready form."""
-        spread = (to_json(self.spread) if isinstance(self.spread, HalfNormal)
-                  else float(self.spread))
-        return {"kind": self.kind, "spread": spread}
+        out = {"kind": self.kind, "spread": _prior_or_number(self.spread)}
+        if self.rationality_spread is not None:  # absent key: older files read the same
+            out["rationality_spread"] = _prior_or_number(self.rationality_spread)
+        return out
 
     @classmethod
     def from_spec(cls, spec: dict) -> Pooling:
         """Inverse of :meth:`spec`."""
-        spread = spec["spread"]
-        return cls(spec["kind"], from_json(spread) if isinstance(spread, str) else spread)
+        def read(x):
+            return from_json(x) if isinstance(x, str) else x
+
+        rs = spec.get("rationality_spread")
+        return cls(spec["kind"], read(spec["spread"]), None if rs is None else read(rs))
+
+
+def _prior_or_number(x):
+    return to_json(x) if isinstance(x, HalfNormal) else float(x)
 
 
 def _number(x) -> float:
@@ -143,6 +169,13 @@ class GroupModel:
         self._spread_prior = (_restrict(spread, self.free, n_f)
                               if isinstance(spread, HalfNormal) else None)
         self._fixed_spread = None if self._spread_prior else float(spread)
+        self._rat = None
+        if pooling.rationality_spread is not None:
+            if self.rationality_prior is None:
+                raise InputError("pooling: per-demonstrator rationality varies around a sampled "
+                                 "population rationality; give the rationality a LogNormal "
+                                 "prior and pin one weight")
+            self._rat = RationalityBlock(pooling.rationality_spread, self.n_groups)
         self.solver_failures = 0
 
     # -- layout -----------------------------------------------------------------------
@@ -160,7 +193,8 @@ class GroupModel:
         """Length of ``theta``."""
         k, g = self.free.size, self.n_groups
         weights = k + self._n_spread + g * k if self.partial else g * k
-        return weights + (self.fixed_rationality is None)
+        own = self._rat.size if self._rat is not None else 0
+        return weights + own + (self.fixed_rationality is None)
 
     def _beta(self, theta: np.ndarray) -> float:
         if self.fixed_rationality is not None:
@@ -197,6 +231,8 @@ class GroupModel:
         ``spread`` (F; 0 for pinned features) for partial pooling, ``rationality``."""
         mu, tau, w = self._free_weights(self.split(theta))
         out = {"weights": np.stack([self._full(x) for x in w]), "rationality": self._beta(theta)}
+        if self._rat is not None:
+            out["rationalities"] = np.exp(self._log_betas(theta))
         if self.partial:
             out["population"] = self._full(mu)
             spread = np.zeros(len(self.feature_names))
@@ -212,9 +248,25 @@ class GroupModel:
         return head, d["rationality"]
 
     # -- density ----------------------------------------------------------------------
-    def _quantities(self, w: np.ndarray, beta: float) -> dict:
+    def _block(self, theta: np.ndarray) -> np.ndarray:
+        return theta[-1 - self._rat.size:-1]
+
+    def _log_betas(self, theta: np.ndarray) -> np.ndarray:
+        return self._rat.log_rationalities(self._block(theta), float(theta[-1]))
+
+    def _quantities(self, w: np.ndarray, beta: float, theta: np.ndarray) -> dict | None:
+        """The evidence's inputs; None when a demonstrator's rationality is not a float."""
         q = {weights_name(i): self._full(x) for i, x in enumerate(w)}
-        q["rationality"] = beta
+        if self._rat is None:
+            q["rationality"] = beta
+            return q
+        log_b = self._log_betas(theta)
+        if np.any(log_b > _LOG_MAX) or not np.all(np.isfinite(log_b)):
+            return None
+        betas = np.exp(log_b)
+        if not all(_representable(float(b)) for b in betas):
+            return None
+        q.update({rationality_name(i): float(b) for i, b in enumerate(betas)})
         return q
 
     def logdensity_and_grad(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
@@ -225,8 +277,11 @@ class GroupModel:
             return -np.inf, np.full(self.dim, np.nan)
         parts = self.split(theta)
         mu, tau, w = self._free_weights(parts)
+        q = self._quantities(w, beta, theta)
+        if q is None:
+            return -np.inf, np.full(self.dim, np.nan)
         try:
-            value = self.evidence.evaluate(self._quantities(w, beta))
+            value = self.evidence.evaluate(q)
         except SolverError:
             self.solver_failures += 1
             return -np.inf, np.full(self.dim, np.nan)
@@ -236,8 +291,14 @@ class GroupModel:
         total = value.logp + total
         if self.fixed_rationality is not None:
             return float(total), grad
+        g_beta = value.grads.get("rationality", 0.0)
+        if self._rat is not None:
+            g_d = np.array([float(value.grads[rationality_name(i)])
+                            for i in range(self.n_groups)])
+            lp_r, g_r, g_beta = self._rat.log_prior_and_chain(self._block(theta), g_d)
+            total, grad = total + lp_r, np.concatenate([grad, g_r])
         lp_b, g_b = self.rationality_prior.log_density(theta[-1:])
-        return float(total + lp_b), np.append(grad, value.grads["rationality"] + g_b[0])
+        return float(total + lp_b), np.append(grad, g_beta + g_b[0])
 
     def _prior_and_chain(self, parts, tau, g) -> tuple[float, np.ndarray]:
         """Log prior of the weight blocks and the gradient through ``w_d(theta)``."""
@@ -269,8 +330,11 @@ class GroupModel:
             return -np.inf
         parts = self.split(theta)
         _, tau, w = self._free_weights(parts)
+        q = self._quantities(w, beta, theta)
+        if q is None:
+            return -np.inf
         try:
-            data = self.evidence.evaluate(self._quantities(w, beta), gradient=False)
+            data = self.evidence.evaluate(q, gradient=False)
         except SolverError:
             self.solver_failures += 1
             return -np.inf
@@ -278,6 +342,9 @@ class GroupModel:
         total = data.logp + self._prior_and_chain(parts, tau, g0)[0]
         if self.fixed_rationality is None:
             total += self.rationality_prior.log_density(theta[-1:])[0]
+        if self._rat is not None:
+            total += self._rat.log_prior_and_chain(self._block(theta),
+                                                   np.zeros(self.n_groups))[0]
         return float(total)
 
     # -- files ------------------------------------------------------------------------
@@ -327,5 +394,6 @@ def make_model(likelihood, prior=None, rationality=None, pin=None, pooling=None,
     beta = likelihood.rationality if rationality is None else rationality
     from bayesirl.evidence import demonstrator_evidence  # the likelihood stack, on use
 
-    return GroupModel(demonstrator_evidence(likelihood), likelihood.mdp.feature_names, names,
-                      pooling, prior, beta, pin, likelihood)
+    own = pooling.rationality_spread is not None
+    return GroupModel(demonstrator_evidence(likelihood, own_rationality=own),
+                      likelihood.mdp.feature_names, names, pooling, prior, beta, pin, likelihood)

@@ -38,6 +38,8 @@ class AmbiguityReport:
     tolerance: float | None = None
     suggestions: list = field(default_factory=list)  # plain records from bayesirl.suggest
     posterior: object = field(default=None, repr=False)
+    # several demonstrators: the record of posterior.group_summary.demonstrator_summary
+    demonstrators: dict | None = field(default=None, repr=False)
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (the posterior itself is left out)."""
@@ -103,7 +105,8 @@ def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None =
               truth: Sequence[float] | np.ndarray | None = None, states: Sequence[int] = (),
               risk_level: float | None = None, suggestions: Sequence | None = None,
               tolerance: float | None = None,
-              action_names: Sequence[str] | None = None) -> AmbiguityReport:
+              action_names: Sequence[str] | None = None,
+              demonstrators: dict | None = None) -> AmbiguityReport:
     """Build the ambiguity report of a posterior.
 
     Parameters
@@ -133,6 +136,11 @@ def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None =
     action_names : sequence of str, optional
         Names of the actions (a problem file's ``actions``, a map's moves), for the action
         probability table.
+    demonstrators : dict, optional
+        Several demonstrators: the record of
+        :func:`bayesirl.posterior.group_summary.demonstrator_summary` (computed here at
+        ``level`` when omitted and the posterior has groups). The page then says that its
+        weights are the population mean and has a section on the demonstrators.
     """
     tolerance = verdicts.check_tolerance(tolerance)
     risk_level = level if risk_level is None else risk_level
@@ -156,7 +164,16 @@ def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None =
         groups=entangled, tolerance=tolerance,
         suggestions=as_records(suggestions), posterior=posterior,
     )
+    if demonstrators is None and getattr(posterior, "groups", None) is not None:
+        from bayesirl.posterior.group_summary import demonstrator_summary
+
+        demonstrators = demonstrator_summary(posterior, level)
+    report.demonstrators = demonstrators
     report.verdict = headline(report)
+    if demonstrators is not None:
+        from bayesirl.report.groups_html import preamble
+
+        report.verdict = " ".join(x for x in (preamble(demonstrators), report.verdict) if x)
     return report
 
 

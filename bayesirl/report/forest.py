@@ -3,8 +3,10 @@
 
 One panel per feature: each demonstrator's partially pooled mean and interval, the population
 mean's interval as a band, a new demonstrator's predictive interval, and the heterogeneity
-verdict in the panel title. The unpooled ("alone") estimates that would show the shrinkage
-are not in the record yet.
+verdict in the panel title. With partial pooling each demonstrator also has a thin grey
+line just above: the estimate from their own episodes alone (Laplace approximation, see
+:mod:`bayesirl.posterior.alone`), so the shrinkage towards the population is the distance
+between the grey and the black mark.
 """
 
 from __future__ import annotations
@@ -13,6 +15,9 @@ from matplotlib.figure import Figure
 
 from bayesirl.report.plots import INK, POSTERIOR, PRIOR, WEIGHT_UNITS, style_axes
 
+# The alone estimate's row offset and colour (a thin grey line above the pooled one).
+_ALONE = 0.3
+ALONE = "#8c8c8c"
 _WORDS = {"differ": "demonstrators differ", "agree": "demonstrators agree",
           "unclear": "cannot tell", "pinned": "pinned"}
 
@@ -40,13 +45,21 @@ def forest_figure(record: dict) -> Figure:
             ax.plot([r["lower"], r["upper"]], [y, y], color=colour, lw=1.5)
             ax.plot([r["mean"]], [y], "o", color=colour, ms=4,
                     mfc="white" if label == "new demonstrator" else colour)
+            own = record["demonstrators"].get(label, {}).get("alone", {}).get(name)
+            if own is not None:
+                ax.plot([own["lower"], own["upper"]], [y + _ALONE, y + _ALONE], color=ALONE,
+                        lw=1)
+                ax.plot([own["mean"]], [y + _ALONE], "s", color=ALONE, ms=3, mfc="white")
         ax.set_yticks(range(len(rows)))
         ax.set_yticklabels(rows[::-1] if i == 0 else [])
         ax.set_xlabel(f"weight ({WEIGHT_UNITS})", fontsize=8)
         ax.set_ylabel("demonstrator", fontsize=8)
         word = _WORDS.get(verdicts.get(name, ""), "")
         ax.set_title(f"{name}" + (f"\n{word}" if word else ""), fontsize=9, color=INK)
+    alone = any("alone" in r for r in record["demonstrators"].values())
+    note = ("\nblack: partially pooled; grey, above: from their own episodes alone"
+            if alone else "")
     fig.suptitle(f"weights per demonstrator, {record['level']:.0%} intervals "
-                 f"(pooling {record['pooling']})", fontsize=9, color=INK)
+                 f"(pooling {record['pooling']}){note}", fontsize=9, color=INK)
     fig.tight_layout()
     return fig

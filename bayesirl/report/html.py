@@ -12,7 +12,7 @@ from html import escape
 
 import numpy as np
 
-from bayesirl.report import maps, plots, predictive, suggestions, verdicts
+from bayesirl.report import groups_html, maps, plots, predictive, suggestions, verdicts
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
 # Stable anchors: other documents and the tests link to these, so renaming one is a break.
@@ -55,7 +55,7 @@ def render_html(report) -> str:
     """
     body = [_header(report), _banner(report),
             f'<section id="verdict"><p class="verdict">{escape(report.verdict)}</p></section>',
-            _nav()]
+            _nav(), groups_html.section(report)]
     body += [_weights(report), _correlations(report), _directions(report),
              _structural(report), _derived(report), _policy_risk(report),
              _maps(report), predictive.render(report), suggestions.render(report),
@@ -113,7 +113,8 @@ def _weights(report) -> str:
         if truth:
             row += [num(r.get("truth")), num(r.get("z_score"), ".2f")]
         rows.append(row)
-    note = (_word_list(report) + "<p class=\"note\">Contraction is 1 \u2212 posterior "
+    note = (groups_html.weights_note(report) + _word_list(report)
+            + "<p class=\"note\">Contraction is 1 \u2212 posterior "
             "variance / prior variance: near 1 the posterior moved far from the prior, near 0 "
             "the prior still speaks. It is not the verdict: against a broad prior a weight can "
             "contract a lot and still have an interval that straddles zero. HDI is the "

@@ -97,6 +97,11 @@ def test_pooling_table_in_a_problem_file(tmp_path):
     assert pooling.kind == "partial"
     assert np.array_equal(pooling.spread.scale, [0.5, 2.0])
     assert read_problem(_write(tmp_path, "q.toml", TINY_TOML)).pooling == bi.Pooling()
+    own = read_problem(_write(tmp_path, "r.toml", TINY_TOML + '\n[pooling]\nkind = "partial"\n'
+                              'rationality_spread_scale = 0.5\n')).pooling
+    assert own.rationality_spread == bi.HalfNormal(0.5)
+    assert bi.Pooling.from_spec(own.spec()) == own
+    assert "rationality_spread" not in bi.Pooling("partial").spec()  # older files unchanged
 
 
 FEATURES = ["mud", "water"]
@@ -106,7 +111,9 @@ values = st.one_of(st.none(), st.booleans(), st.integers(-3, 3), st.floats(allow
 
 
 @settings(max_examples=300, deadline=None)
-@given(st.dictionaries(st.sampled_from(["kind", "spread_scale", "spread", "scale"]), values))
+@given(st.dictionaries(st.sampled_from(["kind", "spread_scale", "spread", "scale",
+                                        "rationality_spread_scale", "rationality_spread"]),
+                       values))
 def test_pooling_validator_accepts_or_names_the_key(data):
     data = {k: v for k, v in data.items() if v is not None}
     try:
@@ -115,10 +122,16 @@ def test_pooling_validator_accepts_or_names_the_key(data):
         assert "p.toml: [pooling]" in str(err)
         return
     # accepted: only known keys, a known kind, a spread only for partial pooling
-    assert set(data) <= {"kind", "spread_scale", "spread"}
+    assert set(data) <= {"kind", "spread_scale", "spread", "rationality_spread_scale",
+                         "rationality_spread"}
     assert pooling.kind == data.get("kind", "pooled")
     if pooling.kind != "partial":
-        assert "spread" not in data and "spread_scale" not in data
+        assert not set(data) - {"kind"}
+    own = pooling.rationality_spread
+    assert (own is None) == ("rationality_spread" not in data
+                             and "rationality_spread_scale" not in data)
+    if isinstance(own, bi.HalfNormal):
+        assert own.scale > 0
 
 
 def test_check_lists_demonstrators_and_who_is_thin(tmp_path, capsys):
@@ -164,6 +177,10 @@ def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
     assert post.groups["demonstrators"] == ["ida", "jon"]
     assert main(["suggest", str(out)]) == 2  # bad input, not our bug
     assert "several demonstrators" in capsys.readouterr().err
+    assert main(["suggest", str(out), "--demonstrator", "jon", "--outer", "8", "--quiet"]) == 0
+    assert json.loads((out / "suggestions.json").read_text())["settings"]["demonstrator"] == "jon"
+    page = (out / "report.html").read_text()
+    assert 'id="demonstrators"' in page and "Population mean." in page
 
 
 def test_fit_with_separate_rewards_writes_no_population_report(tmp_path, capsys):

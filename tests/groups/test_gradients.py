@@ -28,6 +28,12 @@ CASES = {
     "partial-per-feature-spread": dict(pooling=Pooling("partial", bi.HalfNormal([0.5, 2.0]))),
     "partial-sampled-rationality": dict(pooling="partial", rationality=bi.LogNormal(0, 0.5),
                                         pin={"x": 1.0}),
+    # per-demonstrator rationality around the population's (sampled; one weight pinned)
+    "partial-own-rationality": dict(pooling=Pooling("partial", rationality_spread=bi.HalfNormal(
+        0.5)), rationality=bi.LogNormal(0, 0.5), pin={"x": 1.0}),
+    "partial-own-rationality-fixed-spread": dict(
+        pooling=Pooling("partial", 0.4, rationality_spread=0.3), rationality=bi.LogNormal(0, 0.5),
+        pin={"y": -0.5}),
     "separate": dict(pooling="separate"),
     "separate-uniform-pinned": dict(pooling="separate", prior=bi.Uniform(-3.0, 3.0),
                                     rationality=bi.LogNormal(0, 0.5), pin={"y": -0.5}),
@@ -62,6 +68,28 @@ def test_group_model_gradient(case):
     assert violations(m, theta) == []
     # the gradient-free path gives the same log density
     assert abs(m.logdensity(theta) - m(theta)[0]) < 2 * DELTA
+
+
+def test_own_rationality_reaches_each_demonstrators_term():
+    # log beta_d = log beta + s u_d: moving u_0 changes demonstrator 0's rationality only
+    m = model("partial-own-rationality")
+    assert m.dim == 1 + 1 + 3 + 1 + 3 + 1  # mu, log tau, z (3), log s, u (3), log beta
+    theta = np.random.default_rng(4).uniform(-1.0, 1.0, m.dim)
+    d = m.draw(theta)
+    s = np.exp(theta[5])
+    assert np.allclose(np.log(d["rationalities"]), theta[-1] + s * theta[6:9], rtol=1e-13)
+    assert d["rationality"] == pytest.approx(np.exp(theta[-1]), rel=1e-15)
+    # negative control: without the option there are no own rationalities
+    shared = model("partial-sampled-rationality")
+    assert "rationalities" not in shared.draw(np.zeros(shared.dim))
+
+
+def test_own_rationality_needs_a_sampled_population_rationality():
+    with pytest.raises(bi.InputError, match="LogNormal prior and pin"):
+        make_model(fresh(three_demonstrators()), pooling=Pooling("partial",
+                                                                 rationality_spread=0.3))
+    with pytest.raises(bi.InputError, match="needs partial pooling"):
+        Pooling("separate", rationality_spread=0.3)
 
 
 def test_negative_control_a_wrong_coordinate_is_caught():

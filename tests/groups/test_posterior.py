@@ -123,10 +123,35 @@ def test_record_has_the_verdict_and_the_new_demonstrator():
 
 
 def test_forest_figure_has_a_panel_per_feature():
-    from bayesirl.report.forest import forest_figure
+    from bayesirl.report.forest import ALONE, forest_figure
 
     rec = demonstrator_summary(posterior("partial"))
     fig = forest_figure(rec)
     assert len(fig.axes) == 2
     labels = [t.get_text() for t in fig.axes[0].get_yticklabels()]
     assert labels == ["new demonstrator", "cai", "ben", "ana"]
+    # shrinkage: each demonstrator's alone interval is drawn beside the pooled one, at the
+    # record's numbers (the new demonstrator has none)
+    grey = [ln for ln in fig.axes[0].lines if ln.get_color() == ALONE and len(ln.get_xdata()) == 2]
+    assert sorted(tuple(ln.get_xdata()) for ln in grey) == sorted(
+        (r["alone"]["x"]["lower"], r["alone"]["x"]["upper"]) for r in rec["demonstrators"].values())
+    assert "alone" not in demonstrator_summary(posterior("separate"))["demonstrators"]["ana"]
+
+
+def test_own_rationality_run_round_trips(tmp_path):
+    from bayesirl.posterior.groups import Pooling
+
+    pooling = Pooling("partial", rationality_spread=bi.HalfNormal(0.5))
+    p = bi.sample(fresh(three_demonstrators()), PRIOR, pooling=pooling,
+                  rationality=bi.LogNormal(0.0, 0.5), pin={"x": 1.0}, **RUN)
+    own = p.groups["demonstrator_rationality"]
+    assert own.shape == (2, 60, 3) and np.all(own > 0)
+    assert len(p.param_names()) == len(p.diagnostics.rhat)
+    assert p.param_names()[-3:] == ("rationality[ana]", "rationality[ben]", "rationality[cai]")
+    q = bi.Posterior.load(p.save(tmp_path / "post.nc"))
+    assert q.model.pooling == pooling
+    assert np.array_equal(q.groups["demonstrator_rationality"], own)
+    rec = demonstrator_summary(p, level=0.8, with_alone=False)
+    assert rec["demonstrators"]["ben"]["rationality"]["upper"] == pytest.approx(
+        np.percentile(own[..., 1], 90), rel=1e-12)
+    assert "rationality of each demonstrator" in render(rec)
