@@ -27,9 +27,9 @@ import time
 import numpy as np
 
 from bayesirl.bench.problems import random_mdp
+from bayesirl.execution import sample
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, simulate
-from bayesirl.posterior import sample
 from bayesirl.posterior.groups import Pooling, make_model
 from bayesirl.priors import HalfNormal, Normal
 
@@ -99,7 +99,7 @@ def case(n_states: int, n_groups: int, draws: int, warmup: int, chains: int,
     d = post.diagnostics
     f = FEATURES
     ess_mu = float(np.min(d.ess_bulk[:f]))
-    names = post.param_names()
+    names = post.param_names
     spread_idx = [names.index(f"spread[{n}]") for n in mdp.feature_names]
     ess_tau = float(np.min(np.asarray(d.ess_bulk)[spread_idx]))
     row = {"states": n_states, "demonstrators": n_groups, "steps": demos.n_steps,

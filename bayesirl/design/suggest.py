@@ -12,8 +12,8 @@ import numpy as np
 from bayesirl.design import estimators as est
 from bayesirl.design import ranking
 from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
-from bayesirl.design.listing import Suggestions
 from bayesirl.design.groups import simulation_weights
+from bayesirl.design.listing import Suggestions
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups

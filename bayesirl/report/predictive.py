@@ -76,8 +76,8 @@ def miss_map(check, grid_shape) -> Figure | None:
     missed = check.missed_states[:n].reshape(rows, cols)
     fig = Figure(figsize=(6.0, max(2.8, 4.6 * rows / cols + 0.8)))
     ax = fig.add_subplot(1, 1, 1)
-    im = ax.imshow(np.log1p(visits), cmap=palette.VISITS_MAP, origin="upper", interpolation="nearest",
-                   vmin=0)
+    im = ax.imshow(np.log1p(visits), cmap=palette.VISITS_MAP, origin="upper",
+                   interpolation="nearest", vmin=0)
     fig.colorbar(im, ax=ax, shrink=0.85, label="log(1 + recorded visits)")
     r, c = np.nonzero(missed)
     ax.scatter(c, r, marker="X", s=110, color=palette.MISSED, edgecolor="white", lw=1.2,

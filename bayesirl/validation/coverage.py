@@ -34,9 +34,10 @@ from pathlib import Path
 import numpy as np
 from scipy import stats
 
+from bayesirl.execution import sample
+from bayesirl.execution.backend import Processes
 from bayesirl.files import write_json
 from bayesirl.likelihood import BoltzmannLikelihood
-from bayesirl.posterior import sample
 from bayesirl.priors import Normal
 from bayesirl.validation import runner
 from bayesirl.validation.grid import PosteriorDraws
@@ -72,7 +73,7 @@ class HeterogeneityCoverage:
         partial = g.posterior(data, draws, seed)
         pooled = sample(BoltzmannLikelihood(g.mdp, data), Normal(0.0, g.mu_scale),
                         chains=g.chains, draws=draws, warmup=g.warmup, seed=seed,
-                        progress=False, processes=1)
+                        progress=False, backend=Processes(1))
         out = np.stack([partial.draws[..., 0], pooled.weights[..., 0],
                         partial.draws[..., 1]], axis=-1)
         return PosteriorDraws(out, partial.divergences + int(pooled.stats["diverging"].sum()))

@@ -146,8 +146,8 @@ def test_own_rationality_run_round_trips(tmp_path):
                   rationality=bi.LogNormal(0.0, 0.5), pin={"x": 1.0}, **RUN)
     own = p.groups["demonstrator_rationality"]
     assert own.shape == (2, 60, 3) and np.all(own > 0)
-    assert len(p.param_names()) == len(p.diagnostics.rhat)
-    assert p.param_names()[-3:] == ("rationality[ana]", "rationality[ben]", "rationality[cai]")
+    assert len(p.param_names) == len(p.diagnostics.rhat)
+    assert p.param_names[-3:] == ("rationality[ana]", "rationality[ben]", "rationality[cai]")
     q = bi.Posterior.load(p.save(tmp_path / "post.nc"))
     assert q.model.pooling == pooling
     assert np.array_equal(q.groups["demonstrator_rationality"], own)
