@@ -13,11 +13,12 @@ from __future__ import annotations
 
 from matplotlib.figure import Figure
 
+from bayesirl.report import palette
 from bayesirl.report.plots import INK, POSTERIOR, PRIOR, WEIGHT_UNITS, style_axes
 
 # The alone estimate's row offset and colour (a thin grey line above the pooled one).
 _ALONE = 0.3
-ALONE = "#8c8c8c"
+ALONE = palette.ALONE
 _WORDS = {"differ": "demonstrators differ", "agree": "demonstrators agree",
           "unclear": "cannot tell", "pinned": "pinned"}
 

@@ -60,6 +60,9 @@ ZERO_LINE = "#888888"
 # States where recorded choices fall outside the predictive band (model-fit map), on a grey
 # map of visits: vermillion keeps its hue under deuteranopia and is darker than the light greys.
 MISSED = OKABE_ITO["vermillion"]
+# A demonstrator's estimate from their own episodes alone, beside the partially pooled one in
+# the forest plot: a mid grey, lighter than the posterior blue in grey-scale too.
+ALONE = "#8c8c8c"
 VISITS_MAP = "Greys"
 REWARD_MAP = "cividis"
 WIDTH_MAP = "YlGnBu"
