@@ -48,10 +48,10 @@ def problem(n_states: int, n_groups: int, seed: int = 16):
     episodes, names = [], []
     for d in range(n_groups):
         w = mu + SPREAD * rng.standard_normal(FEATURES)
-        demos = simulate(mdp, w, EPISODES, LENGTH, seed=seed + 1 + d)
+        demos = simulate(mdp, w, episodes=EPISODES, length=LENGTH, seed=seed + 1 + d)
         episodes += list(demos.episodes)
         names += [f"d{d}"] * demos.n_episodes
-    return mdp, Demonstrations(episodes, names)
+    return mdp, Demonstrations(episodes, demonstrators=names)
 
 
 def _per_gradient(density, theta: np.ndarray, repeats: int, rng) -> float:

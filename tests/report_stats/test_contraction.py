@@ -83,6 +83,7 @@ def test_contraction_grows_with_demonstrations():
     assert np.all(means[0, :3] < 0.9) and np.all(means[-1, :3] > 0.9), means
 
 
+@pytest.mark.slow  # several fits (~20 s): a statistical suite, kept out of the default run
 def test_constant_feature_contraction_does_not_grow():
     c, undetermined = contractions()
     crit = stats.t.ppf(1 - FAMILY_ALPHA / (2 * (len(SIZES) - 1)), df=len(SEEDS) - 1)
