@@ -18,6 +18,7 @@ from pathlib import Path
 
 import bayesirl
 from bayesirl.io import read_demonstrations, read_problem
+from bayesirl.modelfit.predictive import predictive_check
 from bayesirl.report import ambiguity
 from bayesirl.scenarios.bundled import EXAMPLES, WET_PARK_WEIGHTS
 
@@ -37,6 +38,8 @@ def main(out: Path) -> None:
     # truth is known only because the data are simulated: it adds z-scores to the table.
     report = ambiguity(posterior, level=0.9, truth=WET_PARK_WEIGHTS, states=(0, 8, 24),
                        suggestions=walks, action_names=problem.action_names)
+    # Does the model reproduce the walks? Replicated walks from the draws (model-fit section).
+    report.predictive = predictive_check(posterior, seed=0)
     html = report.to_html(out / "park-report.html")
     js = report.to_json(out / "park-report.json")
     print(report.table())
