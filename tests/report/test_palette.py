@@ -90,7 +90,7 @@ def neighbours():
 
 
 def test_simulation_keeps_white_white():
-    # A transcription check: each row of the paper's matrices sums to 1 (to their six
+    # A copying check: each row of the paper's matrices sums to 1 (to their six
     # decimals), so white (and every grey) is seen unchanged.
     assert np.allclose(DEUTERANOPIA.sum(axis=1), 1.0, atol=1e-5)
     assert np.allclose(PROTANOPIA.sum(axis=1), 1.0, atol=1e-5)
