@@ -121,6 +121,7 @@ def test_reference_quadrature_is_a_density():
     assert abs(whole - parts) < 1e-8 * whole
 
 
+@pytest.mark.slow  # long NUTS runs on the funnel (~17 s): statistical suite
 def test_moments_match_the_quadrature(non_centred):
     draws, _ = non_centred
     mean, sd = reference()
@@ -128,6 +129,7 @@ def test_moments_match_the_quadrature(non_centred):
     assert check.failed == [], check.report()
 
 
+@pytest.mark.slow  # long NUTS runs on the funnel (~17 s): statistical suite
 def test_non_centred_form_does_not_diverge(non_centred):
     assert non_centred[1] == 0
 
@@ -146,6 +148,7 @@ def centred(x):
     return float(lp), g
 
 
+@pytest.mark.slow  # long NUTS runs on the funnel (~17 s): statistical suite
 def test_negative_control_centred_form_diverges():
     # The funnel at small tau (Neal 2003, "Slice sampling", sec. 8's funnel; Betancourt &
     # Girolami 2015, fig. 5): the same sampler and seeds on the centred form, 2 chains of

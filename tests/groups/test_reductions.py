@@ -117,12 +117,14 @@ def _z(reference, mine) -> np.ndarray:
                      for (a, sa), (b, sb) in zip(reference, mine, strict=True)])
 
 
+@pytest.mark.slow  # two long fits (~19 s): statistical suite
 def test_one_demonstrator_partial_is_pooled_with_the_mixture_prior(one_demonstrator):
     pooled, mine = one_demonstrator
     z = _z(_reweighted(pooled, PRIOR.scale), mine)
     assert np.all(np.abs(z) < bonferroni_z(1e-3, 4)), z
 
 
+@pytest.mark.slow  # two long fits (~19 s): statistical suite
 def test_negative_control_shifted_pooled_draws_are_rejected(one_demonstrator):
     # The same comparison with the pooled draws moved by half a posterior sd (0.11 and
     # 0.24): the combined MCSEs of the means are 0.0074 and 0.017 (measured), so z is about
