@@ -30,7 +30,7 @@ from bayesirl.likelihood import marginal, soft, warm
 __all__ = ["PartialEpisodes", "PartialTerm", "first_impossible", "state_only"]
 
 
-class PartialTerm:
+class PartialTerm(warm.WarmStarts):
     """Evidence term of :class:`PartialEpisodes` under the soft Boltzmann demonstrator.
 
     Parameters
@@ -138,21 +138,6 @@ class PartialTerm:
         return self._pass(solved.policy, False)[0]
 
     # -- warm starts (the discounted cache of likelihood.soft) ------------------------------
-    def warm_start(self) -> dict:
-        """A cheap snapshot of the warm starts."""
-        return {"cache": warm.snapshot(self._cache), "n_evaluations": self.n_evaluations}
-
-    def restore_warm_start(self, snapshot: dict) -> None:
-        """Back to a :meth:`warm_start` snapshot."""
-        self._cache = warm.snapshot(snapshot["cache"])
-        self.n_evaluations = snapshot["n_evaluations"]
-
-    def warm_start_arrays(self) -> dict[str, np.ndarray]:
-        """The warm starts as named arrays (for checkpoint files)."""
-        out = warm.to_arrays(self._cache)
-        out["n_evaluations"] = np.array(self.n_evaluations)
-        return out
-
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
         """Inverse of :meth:`warm_start_arrays` (no arrays: start cold)."""
         fresh = marginal.new_cache(self.mdp, self.settings)

@@ -28,7 +28,7 @@ class LikelihoodValue(NamedTuple):
     grad_log_rationality: float
 
 
-class BoltzmannLikelihood:
+class BoltzmannLikelihood(warm.WarmStarts):
     """``L(w, beta) = sum_t log pi(a_t | s_t)`` for a Boltzmann-rational demonstrator.
 
     Parameters
@@ -121,21 +121,6 @@ class BoltzmannLikelihood:
     def reset(self) -> None:
         """Forget the warm starts (the next call solves from scratch)."""
         self._cache = self._new_cache()
-
-    def warm_start(self) -> dict:
-        """A snapshot of the warm starts, for :meth:`restore_warm_start` (cheap)."""
-        return {"cache": warm.snapshot(self._cache), "n_evaluations": self.n_evaluations}
-
-    def restore_warm_start(self, snapshot: dict) -> None:
-        """Return to the warm starts of a :meth:`warm_start` snapshot."""
-        self._cache = warm.snapshot(snapshot["cache"])
-        self.n_evaluations = snapshot["n_evaluations"]
-
-    def warm_start_arrays(self) -> dict[str, np.ndarray]:
-        """The warm starts as named arrays, for files (see :mod:`bayesirl.likelihood.warm`)."""
-        out = warm.to_arrays(self._cache)
-        out["n_evaluations"] = np.array(self.n_evaluations)
-        return out
 
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:
         """Inverse of :meth:`warm_start_arrays`: evaluations then continue bit for bit."""

@@ -56,3 +56,27 @@ def from_arrays(fresh: dict, arrays: dict[str, np.ndarray]) -> dict:
         else:
             cache[key] = arrays[key].copy() if key in arrays else None
     return cache
+
+
+class WarmStarts:
+    """The warm-start protocol of an object that keeps its solver cache in ``self._cache``
+    and counts its evaluations in ``self.n_evaluations`` (the likelihood and the evidence
+    terms built on the same cache); each class loads arrays itself (its fresh cache)."""
+
+    _cache: dict
+    n_evaluations: int
+
+    def warm_start(self) -> dict:
+        """A snapshot of the warm starts, for :meth:`restore_warm_start` (cheap)."""
+        return {"cache": snapshot(self._cache), "n_evaluations": self.n_evaluations}
+
+    def restore_warm_start(self, saved: dict) -> None:
+        """Return to the warm starts of a :meth:`warm_start` snapshot."""
+        self._cache = snapshot(saved["cache"])
+        self.n_evaluations = saved["n_evaluations"]
+
+    def warm_start_arrays(self) -> dict[str, np.ndarray]:
+        """The warm starts as named arrays, for files (see :mod:`bayesirl.likelihood.warm`)."""
+        out = to_arrays(self._cache)
+        out["n_evaluations"] = np.array(self.n_evaluations)
+        return out
