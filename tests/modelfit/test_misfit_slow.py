@@ -18,7 +18,9 @@ from bayesirl.modelfit.predictive import predictive_check
 from bayesirl.scenarios.park import PARK_WEIGHTS, park_mdp
 from modelfit.park_data import simulate_from, without
 
-DATA_SETS = 20
+# 100 data sets: a rate's binomial standard error is then at most 5 points (sqrt(.25/100));
+# with 20 (the first study) it was up to 11. About 7 s per data set on one core.
+DATA_SETS = 100
 SAMPLING = {"chains": 2, "draws": 300, "warmup": 200, "backend": bi.Processes(1), "progress": False,
             "prior": bi.Normal(0.0, 5.0)}
 
@@ -67,5 +69,6 @@ def test_soft_and_optimal_demonstrators_are_told_apart():
     print(f"\nsoft vs optimal (right, no clear difference, wrong) per truth, "
           f"{DATA_SETS // 2} data sets each: {outcome}")
     # No threshold on the rate of right answers (the issue asks to measure it); a clear
-    # preference for the wrong model is what must be rare: at most one data set per truth.
-    assert all(w <= 1 for _, _, w in outcome.values())
+    # preference for the wrong model is what must be rare: at most 10% of the data sets per
+    # truth (the first study's bound, one of ten, kept as a rate).
+    assert all(w <= 0.1 * (DATA_SETS // 2) for _, _, w in outcome.values())
