@@ -172,8 +172,18 @@ def conclusion(c: Comparison) -> str:
                    f"{data}; it does not make the better model true.")
     if c.n_episodes < FEW_EPISODES:
         out.append(f"Only {c.n_episodes} {unit}: the standard errors are themselves rough.")
-    shaky = [r.name for r in c.rows if r.loo.unreliable]
+    shaky = [f"{_numbers(r.loo.unreliable)} of {r.name}" for r in c.rows if r.loo.unreliable]
     if shaky:
-        out.append(f"Pareto k > {K_LIMIT:g} for some {unit} of {', '.join(shaky)}: their "
-                   "LOO estimates are unreliable; refit them exactly (compare --refit).")
+        out.append(f"Pareto k > {K_LIMIT:g} for {unit} {'; '.join(shaky)}: their LOO "
+                   "estimates are unreliable; refit them exactly (compare --refit).")
+    done = [f"{_numbers(r.loo.refitted)} of {r.name}" for r in c.rows if r.loo.refitted]
+    if done:
+        out.append(f"Refitted exactly (Pareto k > {K_LIMIT:g}; sampled again without each): "
+                   f"{unit} {'; '.join(done)}.")
     return "\n".join(out)
+
+
+def _numbers(indices) -> str:
+    """``#0, #3``: positions in the log_likelihood group (counting from 0; fully recorded
+    episodes first, in file order, then those with unrecorded parts)."""
+    return ", ".join(f"#{int(i)}" for i in indices)

@@ -1,0 +1,111 @@
+"""The log_likelihood group with every evidence kind: its variables round-trip through the
+posterior file and ArviZ reads each one (``arviz.loo`` under 0.2x, ``arviz_stats.loo`` under
+1.x); LOO over episodes or over comparison answers; leaving one observation out.
+"""
+
+from __future__ import annotations
+
+from functools import cache
+
+import numpy as np
+import pytest
+from scipy.special import logsumexp
+
+import bayesirl as bi
+from bayesirl import arviz_compat
+from bayesirl.errors import InputError
+from bayesirl.modelfit import compare, episode_loo, refit_episodes
+from bayesirl.modelfit.loo import leave_out
+from bayesirl.posterior.loglik import draw_quantities, is_current
+from modelfit.test_pointwise_evidence import every_kind
+
+SAMPLING = {"chains": 2, "draws": 40, "warmup": 40, "backend": bi.Serial(),
+            "progress": False, "seed": 4}
+
+
+@cache
+def fitted():
+    lik, partial, comparisons = every_kind()
+    return bi.sample(lik, evidence=[partial.subset([0, 1]), comparisons], **SAMPLING)
+
+
+def test_every_kind_round_trips_and_arviz_reads_each_variable(tmp_path):
+    post = fitted()
+    ll = post.compute_log_likelihood(steps=True)
+    assert ll["episodes"].shape == (2, 40, 4 + 2) and ll["comparisons"].shape == (2, 40, 4)
+    assert ll["steps"].shape == (2, 40, 4 * 6 + 2 * 5)
+    for c, d in [(0, 0), (1, 39)]:  # each draw's values add up to the evidence's density
+        q = draw_quantities(post, c, d)
+        total = ll["episodes"][c, d].sum() + ll["comparisons"][c, d].sum()
+        assert total == pytest.approx(post.model.evidence.evaluate(q, False).logp, abs=1e-8)
+    back = bi.Posterior.load(post.save(tmp_path / "p.nc"))
+    for name in ("episodes", "comparisons", "steps"):
+        np.testing.assert_array_equal(back.log_likelihood[name], ll[name])
+    assert is_current(back.log_likelihood, back.model)
+    data = arviz_compat.from_netcdf(tmp_path / "p.nc")
+    group = arviz_compat.group(data, "log_likelihood")
+    assert group["comparisons"].dims == ("chain", "draw", "comparison")
+    for name, n in (("episodes", 6), ("comparisons", 4)):
+        r = arviz_compat.loo(data, name)
+        assert r.elpd_i.shape == (n,) and np.all(np.isfinite(r.elpd_i))
+        # elpd_loo <= the log pointwise predictive density (LOO removes the fit to each one)
+        lppd = np.sum(logsumexp(ll[name].reshape(80, n), axis=0) - np.log(80))
+        assert r.elpd <= lppd
+    by_answer = episode_loo(back, over="comparisons")
+    assert by_answer.elpd_i.shape == (4,)
+
+
+def test_older_values_without_the_further_evidence_are_recomputed():
+    post = fitted()
+    full = post.compute_log_likelihood()
+    post.log_likelihood = {"episodes": full["episodes"][..., :4]}  # demonstrations only
+    assert not is_current(post.log_likelihood, post.model)
+    again = post.compute_log_likelihood()
+    np.testing.assert_allclose(again["episodes"], full["episodes"], atol=2e-9)
+    assert "comparisons" in again
+
+
+def test_runs_with_other_further_evidence_are_refused():
+    post = fitted()
+    lik, partial, comparisons = every_kind()
+    fewer = bi.sample(lik, evidence=[partial.subset([0]), comparisons], **SAMPLING)
+    with pytest.raises(InputError, match="unrecorded parts differ"):
+        compare([post, fewer])
+    demos_only = bi.sample(lik, **SAMPLING)
+    with pytest.raises(InputError, match="further evidence"):
+        compare([post, demos_only])
+    with pytest.raises(InputError, match="no comparisons"):
+        episode_loo(demos_only, over="comparisons")
+    # Negative control: the same evidence under another seed is the same data.
+    same = bi.sample(lik, evidence=[partial.subset([0, 1]), comparisons],
+                     **{**SAMPLING, "seed": 5})
+    assert compare([post, same], over="comparisons").over == "comparisons"
+
+
+def test_leave_out_removes_one_observation_of_each_kind():
+    model = fitted().model
+    assert leave_out(model, 1, "episodes").demos == [0, 2, 3]
+    one = leave_out(model, 5, "episodes")  # the second walk
+    assert one.demos == [0, 1, 2, 3]
+    walks = one.extra[0].episodes.episodes
+    assert len(walks) == 1 and np.array_equal(walks[0][0], model.extra[0].episodes.episodes[0][0])
+    answers = leave_out(model, 2, "comparisons").extra[1].differences
+    np.testing.assert_array_equal(answers, np.delete(model.extra[1].differences, 2, axis=0))
+    for index, over in ((6, "episodes"), (4, "comparisons"), (-1, "comparisons")):
+        with pytest.raises(InputError, match="no "):
+            leave_out(model, index, over)
+
+
+def test_refit_of_a_walk_and_of_an_answer_averages_the_held_out_likelihood():
+    post = fitted()
+    got = refit_episodes(post, [5])
+    kept = leave_out(post.model, 5, "episodes").extra
+    refit = bi.sample(post.model.likelihood, evidence=kept, pin=None, **SAMPLING)
+    held = post.model.extra[0].subset([1])  # the walk alone, evaluated on its own
+    v = np.array([held.evaluate(draw_quantities(refit, c, d), False).logp
+                  for c in range(2) for d in range(40)])
+    # the held-out term's own solves against the full split's: solver tolerance (2e-10 per
+    # step, 5 steps), far below the Monte-Carlo error this estimate carries
+    assert got[0] == pytest.approx(logsumexp(v) - np.log(v.size), abs=2e-9)
+    answer = refit_episodes(post, [0], over="comparisons")
+    assert np.isfinite(answer[0]) and answer[0] < 0
