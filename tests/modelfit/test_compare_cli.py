@@ -38,6 +38,8 @@ def test_compare_runs_and_refuses_other_data(tmp_path, capsys, two_runs):
     assert main(["compare", str(a), str(b)]) == 0
     out = capsys.readouterr().out
     assert "elpd" in out and "water-only" in out and "episodes" in out  # few-episodes caveat
+    assert main(["compare", "--over", "comparisons", str(a), str(b)]) == 2
+    assert "no comparisons" in capsys.readouterr().err  # these runs have no comparison file
     other = fit(tmp_path, TINY_TOML, TINY_CSV.replace("b,2,0,0,right", "b,2,0,0,down"), "other")
     capsys.readouterr()
     assert main(["compare", str(a), str(other)]) == 2
