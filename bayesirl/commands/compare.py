@@ -27,6 +27,6 @@ def compare_command(args) -> int:
             posterior.save(run.posterior)  # atomic; adds the group for the next time
         runs.append(posterior)
         names.append(Path(path).name or str(path))
-    result = compare(runs, names, refit=args.refit, over=args.over)
+    result = compare(runs, names, refit=args.refit, over=getattr(args, "over", "episodes"))
     print(result.table())
     return 0

@@ -74,7 +74,7 @@ def observation_counts(model) -> dict[str, int]:
     unrecorded parts) and, with comparison terms, answers."""
     out = {EPISODES: model.likelihood.demos.n_episodes}
     for term in getattr(model, "extra", ()):
-        if hasattr(term, "differences"):  # a comparison term
+        if hasattr(term, "answer_log_probabilities"):  # a comparison term
             out[COMPARISONS] = out.get(COMPARISONS, 0) + len(term)
         else:  # a partial-episode term
             out[EPISODES] += term.episodes.n_episodes

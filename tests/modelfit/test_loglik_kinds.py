@@ -109,3 +109,41 @@ def test_refit_of_a_walk_and_of_an_answer_averages_the_held_out_likelihood():
     assert got[0] == pytest.approx(logsumexp(v) - np.log(v.size), abs=2e-9)
     answer = refit_episodes(post, [0], over="comparisons")
     assert np.isfinite(answer[0]) and answer[0] < 0
+
+
+@pytest.mark.slow  # six refits
+def test_psis_matches_exact_refits_for_walks_and_answers():
+    """PSIS-LOO estimates what the refits compute exactly (Vehtari, Gelman & Gabry 2017), for
+    the episodes with unrecorded parts and for the comparison answers too."""
+    from modelfit.test_loo import log_mean_exp_se
+
+    lik, partial, comparisons = every_kind()
+    run = {**SAMPLING, "chains": 4, "draws": 500, "warmup": 300}
+    post = bi.sample(lik, evidence=[partial.subset([0, 1]), comparisons], **run)
+    for over, picks in (("episodes", [4, 5]), ("comparisons", [0, 1, 2, 3])):
+        loo = episode_loo(post, over=over)
+        ll = post.log_likelihood[over]
+        z, z_bad = [], []
+        lppd = logsumexp(ll.reshape(-1, ll.shape[-1]), axis=0) - np.log(ll[..., 0].size)
+        for i in picks:
+            kept = leave_out(post.model, i, over)
+            lik_i = bi.BoltzmannLikelihood(lik.mdp, lik.demos.subset(kept.demos))
+            refit = bi.sample(lik_i, evidence=kept.extra, **run)
+            split = [post.model.evidence.pointwise(draw_quantities(refit, c, d),
+                                                   lik.demos.lengths)
+                     for c in range(4) for d in range(500)]
+            v = np.array([(s.episode if over == "episodes" else s.answers)[i] for s in split])
+            exact = logsumexp(v) - np.log(v.size)
+            # Same error model as tests/modelfit/test_loo.py: refit's delta-method se and
+            # the harmonic-mean bound on PSIS's own error.
+            se = np.hypot(log_mean_exp_se(v.reshape(4, 500)), log_mean_exp_se(-ll[..., i]))
+            z.append((loo.elpd_i[i] - exact) / se)
+            z_bad.append((lppd[i] - exact) / se)
+        print(over, "z psis vs exact:", np.round(z, 2), "in-sample:", np.round(z_bad, 2),
+              "k:", np.round(loo.pareto_k, 2))
+        assert np.all(loo.pareto_k[picks] < 0.7)
+        # 6 values in all, two-sided: |z| < 3.5 keeps the family-wise false alarm under 0.3%.
+        assert np.all(np.abs(z) < 3.5), z
+        # Negative control: the in-sample log predictive density (nothing left out) is off
+        # by p_loo_i, beyond the Monte-Carlo error for at least one observation.
+        assert np.max(np.abs(z_bad)) > 3.5, z_bad
