@@ -6,6 +6,7 @@ posterior file and ArviZ reads each one (``arviz.loo`` under 0.2x, ``arviz_stats
 from __future__ import annotations
 
 from functools import cache
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -15,7 +16,9 @@ import bayesirl as bi
 from bayesirl import arviz_compat
 from bayesirl.errors import InputError
 from bayesirl.modelfit import compare, episode_loo, refit_episodes
+from bayesirl.modelfit.compare import same_data
 from bayesirl.modelfit.loo import leave_out
+from bayesirl.posterior.groups import make_model
 from bayesirl.posterior.loglik import draw_quantities, is_current
 from modelfit.test_pointwise_evidence import every_kind
 
@@ -68,18 +71,22 @@ def test_older_values_without_the_further_evidence_are_recomputed():
 def test_runs_with_other_further_evidence_are_refused():
     post = fitted()
     lik, partial, comparisons = every_kind()
-    fewer = bi.sample(lik, evidence=[partial.subset([0]), comparisons], **SAMPLING)
+
+    def run(*extra):  # what same_data reads of a run: its model (no sampling needed)
+        return SimpleNamespace(model=make_model(lik, extra=extra))
+
     with pytest.raises(InputError, match="unrecorded parts differ"):
-        compare([post, fewer])
-    demos_only = bi.sample(lik, **SAMPLING)
+        same_data([post, run(partial.subset([0]), comparisons)], ["a", "b"])
+    with pytest.raises(InputError, match="comparison answers against"):
+        same_data([post, run(partial.subset([0, 1]), comparisons.subset([0, 1]))], ["a", "b"])
     with pytest.raises(InputError, match="further evidence"):
-        compare([post, demos_only])
+        same_data([post, run()], ["a", "b"])
+    # Negative control: the same evidence, built again, is the same data.
+    same_data([post, run(partial.subset([0, 1]), comparisons)], ["a", "b"])
+    demos_only = bi.sample(lik, **SAMPLING)
     with pytest.raises(InputError, match="no comparisons"):
         episode_loo(demos_only, over="comparisons")
-    # Negative control: the same evidence under another seed is the same data.
-    same = bi.sample(lik, evidence=[partial.subset([0, 1]), comparisons],
-                     **{**SAMPLING, "seed": 5})
-    assert compare([post, same], over="comparisons").over == "comparisons"
+    assert compare([post, post], over="comparisons").over == "comparisons"
 
 
 def test_leave_out_removes_one_observation_of_each_kind():
