@@ -248,6 +248,10 @@ def _compare_parser(sub) -> None:
                      "on the same demonstrations (two or more)")
     cmp.add_argument("--refit", action="store_true", help="sample again without each episode "
                      "whose Pareto k exceeds 0.7 (exact, one run per episode)")
+    cmp.add_argument("--over", choices=("episodes", "comparisons"), default="episodes",
+                     help="leave out one episode at a time (default; fully recorded and "
+                     "partly recorded episodes) or, for runs with a comparison file, one "
+                     "comparison answer at a time; never both in one sum")
 
 
 def _large_options(bench) -> None:

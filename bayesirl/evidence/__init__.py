@@ -18,6 +18,7 @@ _EXPORTS = {
     "rationality_name": "bayesirl.evidence.groups",
     "weights_name": "bayesirl.evidence.groups",
     "Evidence": "bayesirl.evidence.model",
+    "PointwiseSplit": "bayesirl.evidence.model",
     "PartialEpisodes": "bayesirl.evidence.episodes",
     "PartialTerm": "bayesirl.evidence.partial",
     "state_only": "bayesirl.evidence.episodes",

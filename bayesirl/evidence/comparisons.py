@@ -22,7 +22,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.term import TermValue
+from bayesirl.evidence.term import Pointwise, TermValue
 
 
 def discounted_features(mdp, states: np.ndarray, actions: np.ndarray) -> np.ndarray:
@@ -103,21 +103,37 @@ class ComparisonTerm:
     def _beta(self, quantities) -> float:
         return self.fixed if self.fixed is not None else float(quantities[self.rationality_name])
 
-    def pointwise(self, quantities: Mapping[str, object]) -> np.ndarray:
-        """Log-probability of each answer ``(K,)``."""
-        z = self._beta(quantities) * (self.differences @ np.asarray(quantities[self.weights_name]))
+    def answer_log_probabilities(self, quantities: Mapping[str, object]) -> np.ndarray:
+        """Log-probability of each recorded answer ``(K,)``; they sum to the term's value.
+
+        The one place the choice model's probabilities are written: :meth:`evaluate` sums
+        them and :meth:`pointwise` hands them out as the answers' pointwise values.
+        """
+        w = np.asarray(quantities[self.weights_name], dtype=np.float64)
+        z = self._beta(quantities) * (self.differences @ w)
         return -np.logaddexp(0.0, -z)
+
+    def pointwise(self, quantities: Mapping[str, object]) -> Pointwise:
+        """No episodes; one value per answer (each answer is an observation of its own)."""
+        none = np.zeros(0)
+        return Pointwise(np.zeros(0, dtype=np.int64), none, none,
+                         self.answer_log_probabilities(quantities))
+
+    def subset(self, keep) -> ComparisonTerm:
+        """The same term on the answers ``keep`` (indices), e.g. to leave one out."""
+        keep = np.asarray(keep, dtype=np.int64)
+        beta = self.rationality_name if self.fixed is None else self.fixed
+        return ComparisonTerm(self.differences[keep], rationality=beta, key=self.key,
+                              weights=self.weights_name)
 
     def evaluate(self, quantities: Mapping[str, object], gradient: bool = True) -> TermValue:
         """Log-likelihood; gradient in the weights and (if sampled) in ``log(beta_c)``."""
-        w = np.asarray(quantities[self.weights_name], dtype=np.float64)
-        beta = self._beta(quantities)
-        margin = self.differences @ w
-        z = beta * margin
         self.n_evaluations += 1
-        logp = float(-np.logaddexp(0.0, -z).sum())
+        logp = float(self.answer_log_probabilities(quantities).sum())
         if not gradient:
             return TermValue(logp, {})
+        beta = self._beta(quantities)
+        z = beta * (self.differences @ np.asarray(quantities[self.weights_name], np.float64))
         miss = np.exp(-np.logaddexp(0.0, z))  # 1 - sigmoid(z), without overflow
         grads = {self.weights_name: beta * (miss @ self.differences)}
         if self.fixed is None:

@@ -9,11 +9,27 @@ empty key and then keeps its own names (so a one-term model's checkpoints read a
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from typing import NamedTuple
 
 import numpy as np
 
 from bayesirl.errors import InputError
-from bayesirl.evidence.term import EvidenceTerm, Pointwise, PointwiseTerm, TermValue
+from bayesirl.evidence.term import EvidenceTerm, PointwiseTerm, TermValue
+
+
+class PointwiseSplit(NamedTuple):
+    """The evidence's log density split by observation (:meth:`Evidence.pointwise`).
+
+    ``episode``: per episode, the demonstrations first (in their order), then the episodes
+    of terms with episodes of their own (episodes with unrecorded parts), in term order.
+    ``step``: per step of those episodes in the same order, or None unless every term
+    gives per-step values. ``answers``: per answer of the comparison terms, in term order,
+    or None without them. ``episode.sum() + answers.sum()`` is the evidence's log density.
+    """
+
+    episode: np.ndarray
+    step: np.ndarray | None
+    answers: np.ndarray | None
 
 
 class Evidence:
@@ -60,36 +76,43 @@ class Evidence:
                 grads[name] = g if name not in grads else grads[name] + g
         return TermValue(total, grads)
 
-    def pointwise(self, quantities: Mapping[str, object],
-                  lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
-        """Log density per episode ``(E,)`` and per step ``(sum(lengths),)`` or None.
+    def pointwise(self, quantities: Mapping[str, object], lengths: np.ndarray) -> PointwiseSplit:
+        """The log density split by observation: see :class:`PointwiseSplit`.
 
-        ``lengths`` are the actions per episode of the whole demonstration set. Several
-        terms explaining the same episode add up; per-step values are given only when every
-        term gives them. Raises InputError if a term cannot split its log density. Terms over
-        other observations (comparison answers, episodes with unrecorded parts) give their
-        own arrays, not a :class:`Pointwise` record of demonstration episodes: they are left
-        out, so the values describe the demonstrations given everything else.
+        ``lengths`` are the actions per episode of the demonstration set. Several terms
+        explaining the same demonstration add up; episodes of a term's own follow the
+        demonstrations in term order. Per-step values are given only when every term gives
+        them. Raises InputError if a term cannot split its log density.
         """
         lengths = np.asarray(lengths, dtype=np.int64)
         offsets = np.concatenate([[0], np.cumsum(lengths)])
         episode = np.zeros(lengths.size)
         step: np.ndarray | None = np.zeros(int(offsets[-1]))
+        own_episode, own_step, answers = [], [], []
         for term in self.terms:
             if not isinstance(term, PointwiseTerm):
                 raise InputError(f"evidence: term {term.key!r} ({type(term).__name__}) "
-                                 "cannot split its log density by episode")
+                                 "cannot split its log density by observation")
             part = term.pointwise(quantities)
-            if not isinstance(part, Pointwise):  # observations other than demonstrations
+            if part.answers is not None:
+                answers.append(np.asarray(part.answers, dtype=np.float64))
+            if part.episodes is None:  # episodes of the term's own: after the demonstrations
+                own_episode.append(part.episode)
+                own_step.append(part.step)
                 continue
             np.add.at(episode, part.episodes, part.episode)
             if part.step is None or step is None:
                 step = None
                 continue
             where = np.concatenate([np.arange(offsets[e], offsets[e + 1])
-                                    for e in part.episodes])
+                                    for e in part.episodes] or [np.zeros(0, np.int64)])
             np.add.at(step, where, part.step)
-        return episode, step
+        episode = np.concatenate([episode, *own_episode])
+        if step is not None and all(x is not None for x in own_step):
+            step = np.concatenate([step, *own_step])
+        else:
+            step = None
+        return PointwiseSplit(episode, step, np.concatenate(answers) if answers else None)
 
     # -- warm starts: the terms' states side by side ---------------------------------------
     def warm_start(self) -> tuple:

@@ -24,7 +24,7 @@ import numpy as np
 from bayesirl.errors import InputError
 from bayesirl.evidence.episodes import PartialEpisodes, first_impossible, state_only
 from bayesirl.evidence.hidden import gap_batch_pass, gap_pass, step_pass
-from bayesirl.evidence.term import TermValue
+from bayesirl.evidence.term import Pointwise, TermValue
 from bayesirl.likelihood import marginal, soft, warm
 
 __all__ = ["PartialEpisodes", "PartialTerm", "first_impossible", "state_only"]
@@ -65,6 +65,14 @@ class PartialTerm(warm.WarmStarts):
     def __repr__(self) -> str:
         return (f"PartialTerm(key={self.key!r}, episodes={self.episodes.n_episodes}, "
                 f"steps={self.steps.source.size}, gaps={len(self.gaps)})")
+
+    def subset(self, keep) -> PartialTerm:
+        """The same term (settings, names) on the episodes ``keep`` (indices), e.g. to leave
+        one out; it starts cold."""
+        eps = [self.episodes.episodes[int(k)] for k in keep]
+        return PartialTerm(self.mdp, PartialEpisodes([s for s, _ in eps], [a for _, a in eps]),
+                           key=self.key, weights=self.weights_name,
+                           rationality=self.rationality_name, **self.settings)
 
     def _check_possible(self) -> None:
         found = first_impossible(self.mdp, self.steps, self.gaps)
@@ -130,12 +138,32 @@ class PartialTerm(warm.WarmStarts):
         g = marginal.gradient(self.mdp, self._cache, solved, n_sa, w, beta, self.work)
         return TermValue(logp, {self.weights_name: g, self.rationality_name: float(w @ g)})
 
-    def pointwise(self, quantities: Mapping[str, object]) -> np.ndarray:
-        """Log-likelihood of each episode ``(E,)`` (they sum to :meth:`evaluate`'s)."""
+    def pointwise(self, quantities: Mapping[str, object]) -> Pointwise:
+        """Log-likelihood per episode (they sum to :meth:`evaluate`'s) and, when no episode
+        has a gap of unrecorded states, per step.
+
+        The episodes are the term's own (numbered after the demonstrations). Given the
+        reward, an episode's pieces are independent (the process is Markov), so a step
+        between two recorded states is an observation of its own: its value is
+        ``log P(recorded action, next state | state)``; a step after an episode's last
+        recorded state or action records nothing and has the value 0 (log 1). A gap's
+        hidden states tie its steps together: then no per-step values are given.
+        """
         w, beta = self._unpack(quantities)
         solved = marginal.solve_policy(self.mdp, self._cache, w, beta, self.work)
         self.n_evaluations += 1
-        return self._pass(solved.policy, False)[0]
+        per_episode = self._pass(solved.policy, False)[0]
+        return Pointwise(None, per_episode, None if self.gaps else self._steps(solved.policy))
+
+    def _steps(self, policy: np.ndarray) -> np.ndarray:
+        """Per-step values of gap-free episodes, in order (episode, then time)."""
+        lengths = np.array([a.size for _, a in self.episodes.episodes], dtype=np.int64)
+        first = np.concatenate([[0], np.cumsum(lengths)[:-1]])
+        out = np.zeros(int(lengths.sum()))
+        with np.errstate(invalid="ignore"):
+            logp, _ = step_pass(self.steps, policy, self.mdp.horizon is not None)
+        out[first[self.steps.episode] + self.steps.time] = logp
+        return out
 
     # -- warm starts (the discounted cache of likelihood.soft) ------------------------------
     def load_warm_start_arrays(self, arrays: dict[str, np.ndarray]) -> None:

@@ -32,23 +32,27 @@ class TermValue(NamedTuple):
 class Pointwise(NamedTuple):
     """A term's log density split by observation, for model checking and PSIS-LOO.
 
-    ``episodes`` are the indices (in the whole demonstration set) of the episodes the term
-    explains, ``episode`` their log densities (summing to the term's value) and ``step``,
-    where a step is an observation of its own, the per-step values of those episodes in
-    order (episode, then time), else None.
+    ``episode`` holds the log densities of the episodes the term explains and ``episodes``
+    says which they are: their indices in the demonstration set, or None for episodes of the
+    term's own (episodes with unrecorded parts), which the evidence model numbers after the
+    demonstrations, in term order. ``step``, where a step is an observation of its own, holds
+    the per-step values of those episodes in order (episode, then time), else None.
+    ``answers`` holds observations that are not episodes (a comparison's answers), one value
+    each, else None. ``episode.sum() + answers.sum()`` is the term's log density.
     """
 
-    episodes: np.ndarray
+    episodes: np.ndarray | None
     episode: np.ndarray
     step: np.ndarray | None
+    answers: np.ndarray | None = None
 
 
 @runtime_checkable
 class PointwiseTerm(Protocol):
-    """An evidence term that can split its log density by episode (every built-in term)."""
+    """An evidence term that can split its log density by observation (every built-in term)."""
 
     def pointwise(self, quantities: Mapping[str, object]) -> Pointwise:
-        """The term's log density at ``quantities``, per episode (and per step)."""
+        """The term's log density at ``quantities``, per episode (and per step) or answer."""
         ...
 
 

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bayesirl.errors import InputError
+from bayesirl.evidence.partial import PartialTerm
 from bayesirl.modelfit.loo import K_LIMIT, EpisodeLoo, episode_loo
 
 # A difference within this many standard errors is reported as no clear difference
@@ -39,7 +40,8 @@ class Comparison:
     """Runs ranked by expected log predictive density (best first), with a conclusion."""
 
     rows: list[Row]
-    n_episodes: int
+    n_episodes: int  # observations left out in turn (episodes, or answers)
+    over: str = "episodes"
 
     @property
     def conclusion(self) -> str:
@@ -60,8 +62,8 @@ class Comparison:
         return self.table()
 
 
-def compare(runs, names=None, *, refit: bool = False) -> Comparison:
-    """Rank ``runs`` (Posterior objects on the same demonstrations) by PSIS-LOO per episode.
+def compare(runs, names=None, *, refit: bool = False, over: str = "episodes") -> Comparison:
+    """Rank ``runs`` (Posterior objects on the same data) by PSIS-LOO per episode.
 
     Parameters
     ----------
@@ -71,6 +73,9 @@ def compare(runs, names=None, *, refit: bool = False) -> Comparison:
         Labels for the table (default ``run 1``, ``run 2``, ...).
     refit : bool
         Refit exactly the episodes whose Pareto k exceeds 0.7 (one new run each).
+    over : {"episodes", "comparisons"}
+        What is left out in turn: an episode (demonstrations and episodes with unrecorded
+        parts) or, for runs with comparisons, a comparison answer. Never both in one sum.
     """
     runs = list(runs)
     names = [f"run {i + 1}" for i in range(len(runs))] if names is None else list(names)
@@ -79,7 +84,7 @@ def compare(runs, names=None, *, refit: bool = False) -> Comparison:
     if len(names) != len(runs):
         raise InputError(f"compare: {len(names)} names for {len(runs)} runs")
     same_data(runs, names)
-    loos = [episode_loo(r, refit=refit) for r in runs]
+    loos = [episode_loo(r, refit=refit, over=over) for r in runs]
     best = int(np.argmax([x.elpd for x in loos]))
     rows = []
     for name, run, x in zip(names, runs, loos, strict=True):
@@ -87,18 +92,19 @@ def compare(runs, names=None, *, refit: bool = False) -> Comparison:
         se = float(np.sqrt(d.size * np.var(d)))
         rows.append(Row(name, describe(run), x, float(d.sum()), se))
     rows.sort(key=lambda r: r.diff)
-    return Comparison(rows, int(loos[0].elpd_i.size))
+    return Comparison(rows, int(loos[0].elpd_i.size), over)
 
 
 def same_data(runs, names) -> None:
-    """InputError unless every run was fitted to the same demonstrations and state space."""
-    first = runs[0].model.likelihood
+    """InputError unless every run was fitted to the same data: demonstrations, state space
+    and the further evidence (episodes with unrecorded parts, comparison answers)."""
+    first = runs[0].model
     for name, run in zip(names[1:], runs[1:], strict=True):
-        other = run.model.likelihood
-        why = _difference(first, other)
+        why = _difference(first.likelihood, run.model.likelihood) or _extra_difference(
+            first, run.model)
         if why:
             raise InputError(f"compare: {name} was fitted to other data than {names[0]} "
-                             f"({why}); LOO comparisons need the same demonstrations")
+                             f"({why}); LOO comparisons need the same data")
 
 
 def _difference(a, b) -> str:
@@ -107,10 +113,32 @@ def _difference(a, b) -> str:
                 f"{b.mdp.n_states} x {b.mdp.n_actions}")
     da, db = a.demos, b.demos
     if da.n_episodes != db.n_episodes:
-        return f"{da.n_episodes} episodes against {db.n_episodes}"
+        return f"{da.n_episodes} fully recorded episodes against {db.n_episodes}"
     for e, ((sa, aa), (sb, ab)) in enumerate(zip(da.episodes, db.episodes, strict=True)):
         if not (np.array_equal(aa, ab) and np.array_equal(sa[:aa.size], sb[:ab.size])):
             return f"episode {e} differs"
+    return ""
+
+
+def _extra_difference(a, b) -> str:
+    """What differs in the further evidence. Comparison answers are stored as differences of
+    discounted feature sums: under other features only their number can be checked."""
+    ea, eb = getattr(a, "extra", ()), getattr(b, "extra", ())
+    kinds = ([type(t).__name__ for t in ea], [type(t).__name__ for t in eb])
+    if kinds[0] != kinds[1]:
+        return f"further evidence {kinds[0] or 'none'} against {kinds[1] or 'none'}"
+    same_features = np.array_equal(a.likelihood.mdp.features, b.likelihood.mdp.features)
+    for ta, tb in zip(ea, eb, strict=True):
+        if isinstance(ta, PartialTerm):
+            pa, pb = ta.episodes.episodes, tb.episodes.episodes
+            if len(pa) != len(pb) or not all(
+                    np.array_equal(x[0], y[0]) and np.array_equal(x[1], y[1])
+                    for x, y in zip(pa, pb, strict=True)):
+                return "the episodes with unrecorded parts differ"
+        elif len(ta) != len(tb):
+            return f"{len(ta)} comparison answers against {len(tb)}"
+        elif same_features and not np.array_equal(ta.differences, tb.differences):
+            return "the comparison answers differ"
     return ""
 
 
@@ -127,6 +155,8 @@ def describe(run) -> str:
 def conclusion(c: Comparison) -> str:
     """Plain-words reading of a comparison."""
     best, rest = c.rows[0], c.rows[1:]
+    unit = "episodes" if c.over == "episodes" else "comparison answers"
+    data = "demonstrations" if c.over == "episodes" else "comparison answers"
     out = []
     clear = [r for r in rest if r.diff > CLEAR_SE * r.diff_se]
     unclear = [r for r in rest if r not in clear]
@@ -134,16 +164,26 @@ def conclusion(c: Comparison) -> str:
         out.append(f"No clear difference between {best.name} and "
                    f"{', '.join(r.name for r in unclear)}: the difference in elpd is within "
                    f"{CLEAR_SE:g} standard errors (a common-practice threshold), so the "
-                   "demonstrations do not tell these models apart.")
+                   f"{data} do not tell these models apart.")
     if clear:
-        out.append(f"{best.name} predicts left-out episodes better than "
+        out.append(f"{best.name} predicts left-out {unit} better than "
                    f"{', '.join(r.name for r in clear)} (difference more than "
                    f"{CLEAR_SE:g} standard errors). This ranks predictive accuracy on these "
-                   "demonstrations; it does not make the better model true.")
+                   f"{data}; it does not make the better model true.")
     if c.n_episodes < FEW_EPISODES:
-        out.append(f"Only {c.n_episodes} episodes: the standard errors are themselves rough.")
-    shaky = [r.name for r in c.rows if r.loo.unreliable]
+        out.append(f"Only {c.n_episodes} {unit}: the standard errors are themselves rough.")
+    shaky = [f"{_numbers(r.loo.unreliable)} of {r.name}" for r in c.rows if r.loo.unreliable]
     if shaky:
-        out.append(f"Pareto k > {K_LIMIT:g} for some episodes of {', '.join(shaky)}: their "
-                   "LOO estimates are unreliable; refit them exactly (compare --refit).")
+        out.append(f"Pareto k > {K_LIMIT:g} for {unit} {'; '.join(shaky)}: their LOO "
+                   "estimates are unreliable; refit them exactly (compare --refit).")
+    done = [f"{_numbers(r.loo.refitted)} of {r.name}" for r in c.rows if r.loo.refitted]
+    if done:
+        out.append(f"Refitted exactly (Pareto k > {K_LIMIT:g}; sampled again without each): "
+                   f"{unit} {'; '.join(done)}.")
     return "\n".join(out)
+
+
+def _numbers(indices) -> str:
+    """``#0, #3``: positions in the log_likelihood group (counting from 0; fully recorded
+    episodes first, in file order, then those with unrecorded parts)."""
+    return ", ".join(f"#{int(i)}" for i in indices)

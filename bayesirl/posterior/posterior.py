@@ -21,6 +21,7 @@ from bayesirl.posterior.group_draws import (
 )
 from bayesirl.posterior.loglik import (
     add_log_likelihood,
+    is_current,
     pointwise_log_likelihood,
     read_log_likelihood,
 )
@@ -51,9 +52,11 @@ class Posterior:
         ``demonstrator_weights`` ``(chains, draws, G, F)``, ``demonstrators`` (G names) and,
         for partial pooling, ``spread`` ``(chains, draws, F)``. ``weights`` then holds the
         population mean (partial) or the mean of the G demonstrators' weights (separate).
-    log_likelihood : None, or ``{"episodes": (chains, draws, E)}`` (and ``"steps"``
-        ``(chains, draws, N)``): each draw's log-likelihood per episode (per step); filled
-        by :meth:`compute_log_likelihood`, saved as ArviZ's log_likelihood group.
+    log_likelihood : None, or ``{"episodes": (chains, draws, E)}`` (with comparisons
+        ``"comparisons": (chains, draws, K)``, and ``"steps": (chains, draws, N)`` if asked):
+        each draw's log-likelihood per episode (demonstrations, then episodes with
+        unrecorded parts), per comparison answer, per step; filled by
+        :meth:`compute_log_likelihood`, saved as ArviZ's log_likelihood group.
     """
 
     def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
@@ -77,7 +80,7 @@ class Posterior:
         """Each draw's log-likelihood per episode (and per step with ``steps``), kept in
         :attr:`log_likelihood` and saved with the posterior (one solve per draw)."""
         have = self.log_likelihood or {}
-        if "episodes" not in have or (steps and "steps" not in have):
+        if not is_current(have, self.model) or (steps and "steps" not in have):
             self.log_likelihood = pointwise_log_likelihood(self, steps=steps)
         return self.log_likelihood
 

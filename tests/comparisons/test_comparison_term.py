@@ -78,7 +78,7 @@ def test_gradient_matches_finite_differences():
     fd_b = (f(q["weights"], np.log(1.7) + h) - f(q["weights"], np.log(1.7) - h)) / (2 * h)
     assert np.allclose(v.grads["weights"], fd, rtol=1e-7, atol=1e-8)
     assert v.grads["beta_c"] == pytest.approx(fd_b, rel=1e-7)
-    assert term.pointwise(q).sum() == pytest.approx(v.logp, rel=1e-14)
+    assert term.answer_log_probabilities(q).sum() == pytest.approx(v.logp, rel=1e-14)
     # one comparison: the probability is the logistic function of the return difference
     one = ComparisonTerm(x[:1], rationality=2.0)
     z = 2.0 * x[0] @ q["weights"]

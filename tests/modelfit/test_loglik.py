@@ -67,7 +67,8 @@ def test_demonstrator_terms_place_each_episode_where_it_belongs():
     evidence = demonstrator_evidence(lik)
     q = {weights_name(i): np.array(w, dtype=float) for i, w in enumerate(TRUE_WEIGHTS.values())}
     q["rationality"] = 1.0
-    episode, step = evidence.pointwise(q, lik.demos.lengths)
+    episode, step, answers = evidence.pointwise(q, lik.demos.lengths)
+    assert answers is None  # no comparisons
     who = list(lik.demos.groups())
     for e in range(lik.demos.n_episodes):
         d = who.index(lik.demos.demonstrators[e])

@@ -61,7 +61,7 @@ def test_equals_brute_force_enumeration(horizon):
     assert isinstance(term, EvidenceTerm)
     pol = soft_policy(p, phi, W, BETA, 0.8, horizon)
     want = [brute_force_loglik(p, pol, s, a, horizon is not None) for s, a in eps]
-    got = term.pointwise({"weights": W, "rationality": BETA})
+    got = term.pointwise({"weights": W, "rationality": BETA}).episode
     # value iteration to a fixed point in floats: policies agree to ~1e-15 relative
     assert np.allclose(got, want, rtol=0, atol=1e-10)
     assert term.evaluate({"weights": W, "rationality": BETA}).logp == pytest.approx(
@@ -69,7 +69,7 @@ def test_equals_brute_force_enumeration(horizon):
     # negative control: one recorded action changed changes the value by far more than 1e-10
     changed = next((s, [1 - a[0]] + a[1:]) for s, a in eps
                    if a[0] >= 0 and _possible(p, s, [1 - a[0]] + a[1:]))
-    other = _term(mdp, [changed]).pointwise({"weights": W, "rationality": BETA})[0]
+    other = _term(mdp, [changed]).pointwise({"weights": W, "rationality": BETA}).episode[0]
     assert abs(other - want[eps.index(next(e for e in eps if e[0] == changed[0]))]) > 1e-3
 
 
