@@ -1,0 +1,112 @@
+"""The designer's "a new demonstrator" beside "more from demonstrator d", in one list.
+
+Reference: the definition of mutual information (Cover & Thomas, ch. 2) between the outcome
+and the posterior draw, computed by brute force: every outcome enumerated, policies from an
+independent dense soft value iteration (tests/design/test_gains.py), the newcomer's
+likelihood under draw ``m`` the mean over the same ``K`` fresh ``z`` the designer draws
+(``SeedSequence(seed, spawn_key=(4,))``, bayesirl.design.groups). One answer at a state is
+exact over actions (1e-9, as in test_gains). A whole demonstration is a nested Monte-Carlo
+estimate whose outer samples are independent draws of (draw, outcome), so it is unbiased for
+the enumerated value and its error is the reported outer-sample standard error.
+"""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+from design.test_gains import _dense_policies, _mi
+from scipy.special import logsumexp
+
+import bayesirl as bi
+from bayesirl.design import suggest
+from bayesirl.design.groups import NEW
+
+from .test_posterior import posterior
+
+DRAWS, K, SEED = 24, 4, 5
+# Six start states tested together: |z| < 3.5 keeps the family's false-alarm rate under
+# 6 * 4.7e-4 = 0.3% (normal tails).
+Z = 3.5
+
+
+def _pseudo_weights(p) -> np.ndarray:
+    """The newcomer's draws ``(N, K, F)`` as the designer makes them."""
+    idx = np.linspace(0, p.n_draws * p.n_chains - 1, DRAWS).round().astype(int)
+    mu = p.weights.reshape(-1, 2)[idx]
+    tau = p.groups["spread"].reshape(-1, 2)[idx]
+    rng = np.random.default_rng(np.random.SeedSequence(SEED, spawn_key=(4,)))
+    return mu[:, None, :] + tau[:, None, :] * rng.standard_normal((DRAWS, K, 2))
+
+
+def _walk_logp(logpol, p, s0: int) -> np.ndarray:
+    """log p(a0, s1, a1 | s0) ``(n, Y)`` for every outcome of a 2-step walk from ``s0``."""
+    n_s, n_a = p.shape[0], p.shape[1]
+    cols = []
+    for a0, s1, a1 in itertools.product(range(n_a), range(n_s), range(n_a)):
+        cols.append(logpol[:, s0, a0] + np.log(p[s0, a0, s1]) + logpol[:, s1, a1])
+    return np.stack(cols, axis=1)
+
+
+def _exact(p, s0: int | None, grouped: bool = True) -> float:
+    """Brute-force information of one answer (``s0`` None: every state) or one 2-step walk."""
+    mdp = p.model.likelihood.mdp
+    w = _pseudo_weights(p)
+    logpol, trans = _dense_policies(mdp, w.reshape(-1, 2))
+    out = []
+    for s in range(mdp.n_states) if s0 is None else [s0]:
+        lp = logpol[:, s, :] if s0 is None else _walk_logp(logpol, trans, s)
+        if grouped:  # the draw's likelihood: mean over its K newcomers
+            lp = logsumexp(lp.reshape(DRAWS, K, -1), axis=1) - np.log(K)
+        out.append(_mi(lp))
+    return np.array(out)
+
+
+def test_new_demonstrator_query_is_the_information_with_z_integrated_out():
+    p = posterior("partial")
+    got = suggest(p, "query-states", demonstrator=NEW, max_draws=DRAWS, new_draws=K,
+                  seed=SEED)
+    assert {r.demonstrator for r in got} == {NEW}
+    gains = np.array([r.gain for r in sorted(got, key=lambda r: r.state)])
+    assert np.max(np.abs(gains - _exact(p, None))) < 1e-9
+    # negative control: counting the newcomer's own z as information, I(y; w) over the N K
+    # pseudo-draws, is a larger number
+    wrong = _exact(p, None, grouped=False)
+    assert np.min(wrong - gains) > 1e-3
+
+
+def test_new_demonstrator_walk_matches_enumeration():
+    p = posterior("partial")
+    got = suggest(p, "start-states", demonstrator=NEW, max_draws=DRAWS, new_draws=K,
+                  seed=SEED, length=2, n_outer=400)
+    rows = sorted(got, key=lambda r: r.state)
+    est = np.array([r.gain_estimate for r in rows])
+    se = np.array([r.stderr for r in rows])
+    exact = np.array([_exact(p, s)[0] for s in range(6)])
+    assert np.all(np.abs(est - exact) < Z * se), (est, exact, se)
+    # negative control: I(y; w) (the newcomer's z counted) is outside the same bounds
+    wrong = np.array([_exact(p, s, grouped=False)[0] for s in range(6)])
+    assert np.any(np.abs(est - wrong) > Z * se)
+
+
+def test_one_list_ranks_present_and_new_demonstrators_on_the_same_scale():
+    p = posterior("partial")
+    both = suggest(p, "query-states", demonstrator=["cai", NEW], max_draws=DRAWS,
+                   new_draws=K, seed=SEED)
+    assert len(both) == 12 and [r.step for r in both].count(1) == 1
+    assert all(a.gain >= b.gain for a, b in zip(both, both[1:], strict=False))
+    alone = suggest(p, "query-states", demonstrator="cai", max_draws=DRAWS, seed=SEED)
+    cai = {r.state: r.gain for r in both if r.demonstrator == "cai"}
+    assert all(abs(cai[r.state] - r.gain) < 1e-12 for r in alone)
+    new = {r.state: r.gain for r in both if r.demonstrator == NEW}
+    assert max(abs(new[s] - g) for s, g in enumerate(_exact(p, None))) < 1e-9
+
+
+def test_new_demonstrator_refusals():
+    with pytest.raises(bi.InputError, match="partial pooling"):
+        suggest(posterior("separate"), "query-states", demonstrator=NEW)
+    with pytest.raises(bi.InputError, match="budget 1"):
+        suggest(posterior("partial"), "query-states", demonstrator=NEW, budget=2)
+    with pytest.raises(bi.InputError, match="twice"):
+        suggest(posterior("partial"), "query-states", demonstrator=["ana", "ana"])
