@@ -110,3 +110,36 @@ def test_new_demonstrator_refusals():
         suggest(posterior("partial"), "query-states", demonstrator=NEW, budget=2)
     with pytest.raises(bi.InputError, match="twice"):
         suggest(posterior("partial"), "query-states", demonstrator=["ana", "ana"])
+
+
+def _fake(spread_of_rationality):
+    """A posterior-shaped record with per-demonstrator rationality (invented numbers)."""
+    from types import SimpleNamespace
+
+    rng = np.random.default_rng(0)
+    groups = {"demonstrators": ["ana", "ben"], "pooling": "partial",
+              "demonstrator_weights": rng.normal(size=(2, 5, 2, 2)),
+              "spread": np.full((2, 5, 2), 0.5),
+              "demonstrator_rationality": np.exp(rng.normal(size=(2, 5, 2)))}
+    model = SimpleNamespace(_rat=SimpleNamespace(fixed=spread_of_rationality))
+    return SimpleNamespace(groups=groups, model=model), rng.normal(size=(10, 2)), np.ones(10)
+
+
+def test_each_person_is_simulated_with_their_own_rationality():
+    from bayesirl.design.groups import people
+
+    post, mu, beta = _fake(0.0)
+    ana, new = people(post, ["ana", NEW], mu, beta, None, SEED, 3)
+    assert np.array_equal(ana.rationalities, post.groups["demonstrator_rationality"][..., 0]
+                          .ravel())
+    # a fixed spread of 0 gives the newcomer the population's rationality
+    assert new.per_draw == 3 and np.array_equal(new.rationalities, np.repeat(beta, 3))
+    z = np.random.default_rng(np.random.SeedSequence(SEED, spawn_key=(4,))).standard_normal(
+        (10, 3, 2))
+    assert np.allclose(new.weights.reshape(10, 3, 2), mu[:, None] + 0.5 * z, atol=1e-12)
+    post, mu, beta = _fake(0.7)
+    new = people(post, NEW, mu, beta, None, SEED, 3)[0]
+    assert np.std(np.log(new.rationalities)) > 0.3  # 30 draws of sd 0.7
+    post, mu, beta = _fake(None)  # the spread sampled: its draws are not kept
+    with pytest.raises(bi.InputError, match="fix the spread"):
+        people(post, NEW, mu, beta, None, SEED, 3)
