@@ -229,6 +229,11 @@ def render(report) -> str:
              f"The first {picks} rows are a batch chosen together: each gain is given the "
              "simulated outcomes of the picks above it, and \"batch gain so far\" adds them up. "
              "A gain within two standard errors of zero is shown as no measurable gain.")
+    if any(r.get("demonstrator") for r in records):
+        words += (" Each row ends with whose demonstration it is. Every gain is the "
+                  "information about the model's parameters (population and present "
+                  "demonstrators), so the rows compare; for a new demonstrator what the "
+                  "demonstration tells about that person alone is not counted.")
     diag = getattr(report, "diagnostics", None) or {}
     warn = ("" if diag.get("trustworthy", True) else
             '<p class="fail">The sampler diagnostics failed: these suggestions rest on draws '
