@@ -108,7 +108,7 @@ def _describe_where(rec: dict, grid_shape, earlier) -> str:
     if rec.get("kind") == "query":
         return f"ask which move at {where}"
     again = any(e.get("state") == state and e.get("kind") == "start" and e.get("step")
-                for e in earlier)
+                and e.get("demonstrator") == rec.get("demonstrator") for e in earlier)
     return f"{'another' if again else 'a'} walk from {where}"
 
 
