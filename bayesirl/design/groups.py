@@ -117,8 +117,10 @@ def _newcomer(posterior, groups, mu, betas, keep, seed: int, new_draws: int) -> 
         raise InputError(f"suggest: {NEW!r} needs partial pooling (a population to draw the "
                          f"new person from); this posterior's pooling is "
                          f"{groups['pooling']!r}")
-    if isinstance(new_draws, bool) or int(new_draws) != new_draws or new_draws < 1:
-        raise InputError(f"suggest: new_draws must be an integer >= 1; got {new_draws!r}")
+    if (isinstance(new_draws, bool) or int(new_draws) != new_draws or new_draws < 2
+            or new_draws % 2):
+        raise InputError(f"suggest: new_draws must be an even integer >= 2 (its halves "
+                         f"correct the estimate's bias); got {new_draws!r}")
     k = int(new_draws)
     tau = _flat(groups["spread"], keep)
     rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(NEWCOMER,)))

@@ -4,15 +4,17 @@ Reference: the definition of mutual information (Cover & Thomas, ch. 2) between 
 and the posterior draw, computed by brute force: every outcome enumerated, policies from an
 independent dense soft value iteration (tests/design/test_gains.py), the newcomer's
 likelihood under draw ``m`` the mean over the same ``K`` fresh ``z`` the designer draws
-(``SeedSequence(seed, spawn_key=(4,))``, bayesirl.design.groups). One answer at a state is
-exact over actions (1e-9, as in test_gains). A whole demonstration is a nested Monte-Carlo
-estimate whose outer samples are independent draws of (draw, outcome), so it is unbiased for
-the enumerated value and its error is the reported outer-sample standard error.
+(``SeedSequence(seed, spawn_key=(4,))``, bayesirl.design.groups), jackknifed over the two
+halves of the ``K`` (Quenouille's bias correction, as the designer does). One answer at a
+state is exact over actions (1e-9, as in test_gains). A whole demonstration is a nested
+Monte-Carlo estimate whose outer samples are independent draws of (draw, outcome), so it is
+unbiased for the enumerated value and its error is the reported outer-sample standard error.
 """
 
 from __future__ import annotations
 
 import itertools
+from functools import cache
 
 import numpy as np
 import pytest
@@ -49,17 +51,33 @@ def _walk_logp(logpol, p, s0: int) -> np.ndarray:
     return np.stack(cols, axis=1)
 
 
-def _exact(p, s0: int | None, grouped: bool = True) -> float:
-    """Brute-force information of one answer (``s0`` None: every state) or one 2-step walk."""
+@cache
+def _policies(p):
+    """Dense soft value iteration at every pseudo-draw (computed once per posterior)."""
+    return _dense_policies(p.model.likelihood.mdp, _pseudo_weights(p).reshape(-1, 2))
+
+
+def _mixture_mi(lp: np.ndarray, ks: slice) -> float:
+    """Information with the draw's likelihood the mean over its newcomers ``ks``."""
+    lp = lp.reshape(DRAWS, K, -1)[:, ks]
+    return _mi(logsumexp(lp, axis=1) - np.log(lp.shape[1]))
+
+
+def _exact(p, s0: int | None, grouped: bool = True) -> np.ndarray:
+    """Brute-force information of one answer (``s0`` None: every state) or one 2-step walk,
+    jackknifed over the halves of the K newcomers: ``2 I_K - (I_first + I_second) / 2``.
+    ``grouped=False``: the negative control, I(y; w) over the N K pseudo-draws."""
     mdp = p.model.likelihood.mdp
-    w = _pseudo_weights(p)
-    logpol, trans = _dense_policies(mdp, w.reshape(-1, 2))
+    logpol, trans = _policies(p)
     out = []
     for s in range(mdp.n_states) if s0 is None else [s0]:
         lp = logpol[:, s, :] if s0 is None else _walk_logp(logpol, trans, s)
-        if grouped:  # the draw's likelihood: mean over its K newcomers
-            lp = logsumexp(lp.reshape(DRAWS, K, -1), axis=1) - np.log(K)
-        out.append(_mi(lp))
+        if not grouped:
+            out.append(_mi(lp))
+            continue
+        h = K // 2
+        halves = _mixture_mi(lp, slice(0, h)) + _mixture_mi(lp, slice(h, K))
+        out.append(2 * _mixture_mi(lp, slice(0, K)) - 0.5 * halves)
     return np.array(out)
 
 
@@ -108,6 +126,8 @@ def test_new_demonstrator_refusals():
         suggest(posterior("separate"), "query-states", demonstrator=NEW)
     with pytest.raises(bi.InputError, match="budget 1"):
         suggest(posterior("partial"), "query-states", demonstrator=NEW, budget=2)
+    with pytest.raises(bi.InputError, match="even integer"):
+        suggest(posterior("partial"), "query-states", demonstrator=NEW, new_draws=3)
     with pytest.raises(bi.InputError, match="twice"):
         suggest(posterior("partial"), "query-states", demonstrator=["ana", "ana"])
 
@@ -129,17 +149,17 @@ def test_each_person_is_simulated_with_their_own_rationality():
     from bayesirl.design.groups import people
 
     post, mu, beta = _fake(0.0)
-    ana, new = people(post, ["ana", NEW], mu, beta, None, SEED, 3)
+    ana, new = people(post, ["ana", NEW], mu, beta, None, SEED, 4)
     assert np.array_equal(ana.rationalities, post.groups["demonstrator_rationality"][..., 0]
                           .ravel())
     # a fixed spread of 0 gives the newcomer the population's rationality
-    assert new.per_draw == 3 and np.array_equal(new.rationalities, np.repeat(beta, 3))
+    assert new.per_draw == 4 and np.array_equal(new.rationalities, np.repeat(beta, 4))
     z = np.random.default_rng(np.random.SeedSequence(SEED, spawn_key=(4,))).standard_normal(
-        (10, 3, 2))
-    assert np.allclose(new.weights.reshape(10, 3, 2), mu[:, None] + 0.5 * z, atol=1e-12)
+        (10, 4, 2))
+    assert np.allclose(new.weights.reshape(10, 4, 2), mu[:, None] + 0.5 * z, atol=1e-12)
     post, mu, beta = _fake(0.7)
-    new = people(post, NEW, mu, beta, None, SEED, 3)[0]
-    assert np.std(np.log(new.rationalities)) > 0.3  # 30 draws of sd 0.7
+    new = people(post, NEW, mu, beta, None, SEED, 4)[0]
+    assert np.std(np.log(new.rationalities)) > 0.3  # 40 draws of sd 0.7
     post, mu, beta = _fake(None)  # the spread sampled: its draws are not kept
     with pytest.raises(bi.InputError, match="fix the spread"):
-        people(post, NEW, mu, beta, None, SEED, 3)
+        people(post, NEW, mu, beta, None, SEED, 4)
