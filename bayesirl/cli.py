@@ -177,6 +177,13 @@ def _fit_parser(sub) -> None:
                           "no checkpoint, so an interrupted run keeps nothing)")
 
 
+_WHO = ("a run with several demonstrators: rank more demonstrations from this demonstrator; "
+        "repeat it to rank several people in one list (this or --new-demonstrator is "
+        "required there)")
+_NEW_WHO = ("a run with partial pooling: also rank a demonstration from a person not in the "
+            "data yet, drawn from the population, in the same list (one pick: --budget 1)")
+
+
 def _other_parsers(sub) -> None:
     rep = _add(sub, "report", "re-render a run folder's report.html and summary.json, e.g. at "
                "another interval level", "bayesirl report park-run --level 0.5", _report)
@@ -205,10 +212,8 @@ def _other_parsers(sub) -> None:
     sug.add_argument("--outer", type=_positive, default=512, metavar="N",
                      help="outer Monte-Carlo samples per candidate (default 512); more give a "
                           "more settled ranking, in proportional time")
-    sug.add_argument("--demonstrator", metavar="NAME",
-                     help="a run with several demonstrators: rank more demonstrations from "
-                          "this demonstrator (required there; a new demonstrator is not "
-                          "supported)")
+    sug.add_argument("--demonstrator", metavar="NAME", action="append", help=_WHO)
+    sug.add_argument("--new-demonstrator", action="store_true", help=_NEW_WHO)
     sug.add_argument("--report", action="store_true",
                      help="also add the suggestions (table and map markers) to the run's "
                           "report.html")

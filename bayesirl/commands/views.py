@@ -151,12 +151,15 @@ def suggest_command(args) -> int:
         print("warning: the run's sampler diagnostics failed "
               f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
               "may be wrong: run the fit longer first", file=sys.stderr)
-    who = getattr(args, "demonstrator", None)
-    if getattr(posterior, "groups", None) is not None and who is None:
+    who = list(getattr(args, "demonstrator", None) or [])
+    if getattr(args, "new_demonstrator", False):
+        who.append(design.NEW)
+    if getattr(posterior, "groups", None) is not None and not who:
         raise InputError(f"{run.root}: this run has several demonstrators; name whose "
-                         "demonstrations to rank with --demonstrator NAME (one of "
-                         f"{list(posterior.groups['demonstrators'])}); ranking a new "
-                         "demonstrator is not supported")
+                         "demonstrations to rank with --demonstrator NAME (one or more of "
+                         f"{list(posterior.groups['demonstrators'])}) and/or "
+                         "--new-demonstrator")
+    who = None if not who else who[0] if len(who) == 1 else who
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
               "budget": args.budget, "target": args.target, "seed": args.seed,

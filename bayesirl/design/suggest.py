@@ -12,8 +12,9 @@ import numpy as np
 from bayesirl.design import estimators as est
 from bayesirl.design import ranking
 from bayesirl.design.batch import RANKING, Batch, child_rng, outer_samples
-from bayesirl.design.groups import simulation_weights
+from bayesirl.design.groups import NEW, NEWCOMER, people
 from bayesirl.design.listing import Suggestions
+from bayesirl.design.newcomer import NewcomerBackend
 from bayesirl.design.policies import CACHE_BYTES, CHUNK_BYTES, DrawPolicies, posterior_draws
 from bayesirl.design.targets import target_values
 from bayesirl.design.work import LocalBackend, groups
@@ -50,6 +51,8 @@ class Suggestion(NamedTuple):
     gain_estimate: float = float("nan")
     measurable: bool = False  # gain_estimate - MEASURABLE_Z * stderr > 0
     p_same: float = float("nan")  # greedy picks: P(a run with another seed picks it again)
+    # whose demonstration: "" with one reward, else a demonstrator's name or groups.NEW
+    demonstrator: str = ""
 
 
 def _parse_candidates(candidates, n_states: int) -> tuple[list[str], np.ndarray, bool]:
@@ -122,6 +125,8 @@ def _step_scores(backend, batch, kinds, states, first: bool) -> est.Scores:
 # nats with an outer-sample se of ~0.01 at 1024; no affordable number settles such a ranking,
 # so the output reports how settled it is (bayesirl.design.ranking) instead.
 N_OUTER = 512
+# Fresh z per posterior draw for a new demonstrator (see bayesirl.design.newcomer).
+NEW_DRAWS = 8
 
 
 def suggest(posterior: Posterior,
@@ -131,7 +136,8 @@ def suggest(posterior: Posterior,
             max_draws: int | None = None, chunk_bytes: int = CHUNK_BYTES,
             cache_bytes: int = CACHE_BYTES, progress: bool = False,
             backend: Backend | None = None,
-            demonstrator: str | None = None) -> list[Suggestion]:
+            demonstrator: str | Sequence[str] | None = None,
+            new_draws: int = NEW_DRAWS) -> list[Suggestion]:
     """Rank extra demonstrations by how much they are expected to tell about the weights.
 
     Parameters
@@ -167,11 +173,16 @@ def suggest(posterior: Posterior,
         the same blocks and groups, so the same seed gives bit-identical suggestions with or
         without a cluster, whatever its number of workers. The greedy picks stay sequential.
         Needs ``bayesirl[cluster]``.
-    demonstrator : str, optional
+    demonstrator : str or list of str, optional
         Required for a posterior with several demonstrators (and refused otherwise): rank
-        more demonstrations from this demonstrator (see :mod:`bayesirl.design.groups`);
-        ``target`` still refers to the headline (population mean) weights. A new
-        demonstrator is not supported.
+        more demonstrations from this demonstrator, or from each of several, and with
+        ``groups.NEW`` (``"(new demonstrator)"``, partial pooling only) from a person not in
+        the data yet, all in one list (see :mod:`bayesirl.design.groups`); each row names
+        whose it is. ``target`` still refers to the headline (population mean) weights.
+        Several people or a new one rank one pick (``budget`` 1), in this process.
+    new_draws : int
+        A new demonstrator's fresh ``z`` per posterior draw (their weights integrated out by
+        this many draws; the policy solves grow in proportion).
 
     Returns
     -------
@@ -201,19 +212,72 @@ def suggest(posterior: Posterior,
     if int(n_outer) != n_outer or n_outer < 2:
         raise InputError(f"suggest: n_outer must be an integer >= 2; got {n_outer!r}")
     weights, betas = posterior_draws(posterior, max_draws)
-    own = simulation_weights(posterior, demonstrator, max_draws)
+    who = people(posterior, demonstrator, weights, betas, max_draws, seed, new_draws)
     g = target_values(posterior, weights, target)
-    policies = DrawPolicies(mdp, weights if own is None else own, betas, lik.q_function,
-                            chunk_bytes, cache_bytes)
-    outer = outer_samples(policies.n, int(n_outer), seed)
-    gg = np.zeros(policies.n) if g is None else g
     status = StatusLine(enabled=progress)
     try:
+        if who is not None and (len(who) > 1 or who[0].label == NEW):
+            if budget != 1 or not isinstance(where, Serial):
+                raise InputError("suggest: several demonstrators, or a new one, are ranked "
+                                 "for one pick (budget 1) in this process (no cluster); got "
+                                 f"budget {budget} and backend {where!r}")
+            rows = _rank_people(who, mdp, lik.q_function, (kinds, states, explicit), length,
+                                g, seed, int(n_outer), (chunk_bytes, cache_bytes))
+            return Suggestions(rows, grid_shape=mdp.grid_shape)
+        policies = DrawPolicies(mdp, weights if who is None else who[0].weights,
+                                betas if who is None else who[0].rationalities,
+                                lik.q_function, chunk_bytes, cache_bytes)
+        outer = outer_samples(policies.n, int(n_outer), seed)
+        gg = np.zeros(policies.n) if g is None else g
         with _work(where, policies, gg, outer) as work:
-            return Suggestions(_greedy(work, policies, kinds, states, explicit, budget,
-                                       length, g, seed, status), grid_shape=mdp.grid_shape)
+            rows = _greedy(work, policies, kinds, states, explicit, budget, length, g, seed,
+                           status)
+        label = "" if who is None else who[0].label
+        return Suggestions([r._replace(demonstrator=label) for r in rows],
+                           grid_shape=mdp.grid_shape)
     finally:
         status.close()
+
+
+def _rank_people(who, mdp, q, cands, length, g, seed, n_outer, memory) -> list[Suggestion]:
+    """One greedy pick over every (person, candidate): the same gain ``I(y; theta)`` over
+    the same draws and outer samples for each person, ranked together."""
+    kinds, states, explicit = cands
+    starts = np.flatnonzero([k == "start" for k in kinds])
+    scores, labels = [], []
+    for person in who:
+        k = person.per_draw
+        policies = DrawPolicies(mdp, person.weights, person.rationalities, q, *memory)
+        n = policies.n // k
+        gg = np.zeros(n) if g is None else g
+        outer = outer_samples(n, n_outer, seed)
+        if k > 1:
+            policies.chunk = max(k, policies.chunk // k * k)  # whole groups per block
+            which = child_rng(seed, NEWCOMER, 1).integers(0, k, size=outer.shape[0])
+            work = NewcomerBackend(policies, k, gg, outer, which)
+        else:
+            work = LocalBackend(policies, gg, outer)
+        batch = Batch(work, starts, states[starts], length, seed)
+        scores.append(_step_scores(work, batch, kinds, states, first=True))
+        labels += [person.label] * states.shape[0]
+    sc = est.Scores(*(np.concatenate([getattr(s, f) for s in scores])
+                      for f in ("gain", "stderr", "target_sd", "per_outer")))
+    if g is None:
+        sc.target_sd[:] = np.nan
+    n_c = states.shape[0]
+    all_kinds, all_states = kinds * len(who), np.tile(states, len(who))
+    order = np.argsort(-sc.gain, kind="stable")
+    best = int(order[0])
+    conf = ranking.confidence(sc.gain, sc.stderr, sc.per_outer, best,
+                              child_rng(seed, RANKING, 1))
+    sd_now = float(np.std(g, ddof=1)) if g is not None else np.nan
+    rows = [_record(sc, int(i), all_kinds, all_states, explicit, sd_now, int(i == best))
+            ._replace(demonstrator=labels[i]) for i in order]
+    rows[0] = rows[0]._replace(
+        cumulative_gain=rows[0].gain, cumulative_stderr=rows[0].stderr, p_best=conf.p_best,
+        rank_interval=conf.rank_interval, settled=conf.settled, p_same=conf.p_same)
+    assert len(rows) == n_c * len(who)
+    return rows
 
 
 @contextmanager

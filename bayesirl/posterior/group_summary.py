@@ -110,6 +110,8 @@ def demonstrator_summary(posterior, level: float = 0.9,
         if "demonstrator_rationality" in g:
             rows[who]["rationality"] = _row(g["demonstrator_rationality"][..., k], level)
     out["demonstrators"] = rows
+    if "demonstrator_rationality" in g and posterior.rationality is not None:
+        out["population_rationality"] = _row(np.asarray(posterior.rationality), level)
     return out
 
 

@@ -69,6 +69,7 @@ def render(record: dict | None, forest=None) -> str:
                      "weights and nothing is shared, so there is no population mean and "
                      "no prediction for a new demonstrator.</p>")
     parts.append(_individuals(record, lvl))
+    parts.append(_rationalities(record, lvl))
     parts.append(figure(
         forest, "forest plot of each demonstrator's weights",
         f"Each demonstrator's weights ({lvl} intervals, black) with, just above in grey, the "
@@ -121,6 +122,26 @@ def _individuals(record: dict, lvl: str) -> str:
                 "distance between the two rows is the shrinkage: a demonstrator with few "
                 "steps is pulled further towards the population.</p>")
     return table(head, rows, "lr" + "r" * len(names)) + note
+
+
+def _rationalities(record: dict, lvl: str) -> str:
+    """Each demonstrator's rationality with its interval (empty when they share one)."""
+    own = [(who, r["rationality"]) for who, r in record["demonstrators"].items()
+           if "rationality" in r]
+    if not own:
+        return ""
+    rows = [[f"{who} ({record['demonstrators'][who]['steps']} steps)", num(r["mean"]),
+             interval(_pair(r))] for who, r in own]
+    if "population_rationality" in record:
+        pop = record["population_rationality"]
+        rows.insert(0, ["population", num(pop["mean"]), interval(_pair(pop))])
+    return ("<h3>Rationality of each demonstrator</h3>"
+            + table(["", "rationality (mean)", f"{lvl} interval"], rows, "lrr")
+            + '<p class="note">Each demonstrator has their own rationality around the '
+            "population's (log-normal spread). Its scale is tied to the weights' scale: a "
+            "demonstrator's rationality times their weights is all their episodes show, so a "
+            "high value means choices that follow those weights closely, a low one choices "
+            "closer to random.</p>")
 
 
 def _pair(r: dict) -> tuple[float, float]:

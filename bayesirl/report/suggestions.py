@@ -25,7 +25,7 @@ NO_GAIN = "no measurable gain"
 TABLE_TOP = 15
 FIELDS = ("candidate", "gain", "stderr", "target_sd", "target_reduction", "kind", "state",
           "step", "current_sd", "cumulative_gain", "cumulative_stderr", "p_best",
-          "rank_interval", "settled", "gain_estimate", "measurable", "p_same")
+          "rank_interval", "settled", "gain_estimate", "measurable", "p_same", "demonstrator")
 FLOATS = ("gain", "stderr", "target_sd", "target_reduction", "current_sd", "cumulative_gain",
           "cumulative_stderr", "p_best", "gain_estimate", "p_same")
 
@@ -61,6 +61,7 @@ def as_records(suggestions) -> list[dict]:
             rec["measurable"] = gain_text(rec) != NO_GAIN
         if not isinstance(rec["candidate"], str):
             rec["candidate"] = int(rec["candidate"])
+        rec["demonstrator"] = str(rec["demonstrator"]) if rec["demonstrator"] else None
         out.append(rec)
     return out
 
@@ -88,7 +89,14 @@ def describe_candidate(rec: dict, grid_shape=None, earlier=()) -> str:
 
     ``earlier`` are the records ranked above (a walk from a cell already in the batch is
     "another walk from ...": a second, independent demonstration from the same start).
+    With several demonstrators it ends with whose demonstration it is.
     """
+    text = _describe_where(rec, grid_shape, earlier)
+    who = rec.get("demonstrator")
+    return f"{text}, by {who}" if who else text
+
+
+def _describe_where(rec: dict, grid_shape, earlier) -> str:
     state = rec.get("state")
     if state is None and isinstance(rec.get("candidate"), int):
         state = rec["candidate"]
@@ -100,7 +108,7 @@ def describe_candidate(rec: dict, grid_shape=None, earlier=()) -> str:
     if rec.get("kind") == "query":
         return f"ask which move at {where}"
     again = any(e.get("state") == state and e.get("kind") == "start" and e.get("step")
-                for e in earlier)
+                and e.get("demonstrator") == rec.get("demonstrator") for e in earlier)
     return f"{'another' if again else 'a'} walk from {where}"
 
 
@@ -221,6 +229,11 @@ def render(report) -> str:
              f"The first {picks} rows are a batch chosen together: each gain is given the "
              "simulated outcomes of the picks above it, and \"batch gain so far\" adds them up. "
              "A gain within two standard errors of zero is shown as no measurable gain.")
+    if any(r.get("demonstrator") for r in records):
+        words += (" Each row ends with whose demonstration it is. Every gain is the "
+                  "information about the model's parameters (population and present "
+                  "demonstrators), so the rows compare; for a new demonstrator what the "
+                  "demonstration tells about that person alone is not counted.")
     diag = getattr(report, "diagnostics", None) or {}
     warn = ("" if diag.get("trustworthy", True) else
             '<p class="fail">The sampler diagnostics failed: these suggestions rest on draws '

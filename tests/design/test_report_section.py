@@ -75,3 +75,16 @@ def test_a_negative_estimate_is_clipped_and_not_measurable():
     # negative control: a clear gain stays as it is and is measurable
     out = as_records([{**rec, "gain": 0.5}])[0]
     assert out["gain"] == 0.5 and out["gain_estimate"] == 0.5 and out["measurable"] is True
+
+
+def test_rows_say_whose_demonstration_with_several_demonstrators():
+    from bayesirl.report.suggestions import render_text
+
+    rec = {"candidate": 3, "gain": 0.5, "stderr": 0.03, "state": 3, "kind": "start", "step": 1}
+    recs = as_records([{**rec, "demonstrator": "ana"},
+                       {**rec, "step": 0, "demonstrator": "(new demonstrator)"}])
+    text = render_text(recs)
+    assert "a walk from state 3, by ana" in text
+    assert "a walk from state 3, by (new demonstrator)" in text
+    # negative control: a one-reward record names nobody
+    assert ", by" not in render_text(as_records([rec]))

@@ -179,6 +179,14 @@ def test_fit_with_partial_pooling_end_to_end(tmp_path, capsys):
     assert "several demonstrators" in capsys.readouterr().err
     assert main(["suggest", str(out), "--demonstrator", "jon", "--outer", "8", "--quiet"]) == 0
     assert json.loads((out / "suggestions.json").read_text())["settings"]["demonstrator"] == "jon"
+    # one list: more from jon beside a person not in the data yet
+    assert main(["suggest", str(out), "--demonstrator", "jon", "--new-demonstrator",
+                 "--outer", "8"]) == 0
+    assert "by (new demonstrator)" in capsys.readouterr().out
+    got = json.loads((out / "suggestions.json").read_text())
+    assert got["settings"]["demonstrator"] == ["jon", "(new demonstrator)"]
+    assert {r["demonstrator"] for r in got["suggestions"]} == {"jon", "(new demonstrator)"}
+    assert main(["suggest", str(out), "--new-demonstrator", "--budget", "2"]) == 2
     page = (out / "report.html").read_text()
     assert 'id="demonstrators"' in page and "Population mean." in page
 

@@ -78,3 +78,25 @@ def test_pooled_run_has_none_of_it():
     assert report.demonstrators is None
     assert 'id="demonstrators"' not in page and "Population mean." not in page
     assert not report.verdict.startswith("These demonstrations come from")
+
+
+def _with_rationalities(rec: dict) -> dict:
+    """The record as a run with per-demonstrator rationality makes it (invented numbers)."""
+    out = dict(rec, demonstrators={k: dict(v) for k, v in rec["demonstrators"].items()})
+    for k, r in enumerate(out["demonstrators"].values()):
+        r["rationality"] = {"mean": 1.1 + k, "sd": 0.2, "lower": 0.71 + k, "upper": 1.53 + k}
+    out["population_rationality"] = {"mean": 1.9, "sd": 0.3, "lower": 1.37, "upper": 2.46}
+    return out
+
+
+def test_page_lists_each_demonstrators_rationality_with_its_interval(report):
+    from bayesirl.report.groups_html import render
+
+    rec = _with_rationalities(report.demonstrators)
+    section = _text(render(rec))
+    assert "Rationality of each demonstrator" in section
+    for r in [rec["population_rationality"]] + [d["rationality"] for d in
+                                                rec["demonstrators"].values()]:
+        assert f"[{r['lower']:.3g}, {r['upper']:.3g}]" in section
+    # negative control: demonstrators sharing one rationality get no such table
+    assert "Rationality of each" not in _text(render(report.demonstrators))
