@@ -151,3 +151,17 @@ def test_observed_support_leaves_unlogged_rows_to_the_map(tmp_path):
     model = problem.mdp.transitions[0 * 4 + 2]  # (0, down): not logged, the map's outcomes
     assert post.row_alpha(0, 2)[0].tolist() == sorted(model.indices.tolist())
     assert np.isclose(post.mean()[0 * 4 + 1].sum(), 1.0)
+
+
+def test_the_documented_example_file_reads(tmp_path):
+    # docs/dynamics.md shows a transitions file for the machine-wear example: it must read.
+    import re
+    from pathlib import Path
+
+    repo = Path(__file__).resolve().parents[2]
+    doc = (repo / "docs" / "dynamics.md").read_text()
+    block = re.findall(r"```\n(# invented maintenance log.*?)```", doc, flags=re.S)[0]
+    (tmp_path / "log.csv").write_text(block)
+    problem = read_problem(repo / "examples" / "machine-wear" / "machine-wear.toml")
+    log, _ = read_transitions(tmp_path / "log.csv", problem)
+    assert log.total == 9 and log.actions.tolist() == [0, 0, 0, 0]
