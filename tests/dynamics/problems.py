@@ -32,8 +32,8 @@ def features() -> np.ndarray:
     return phi
 
 
-def mdp_with(p: np.ndarray) -> TabularMDP:
-    return TabularMDP(p, features(), discount=0.8, start=np.full(N_STATES, 0.25))
+def mdp_with(p: np.ndarray, discount: float = 0.8) -> TabularMDP:
+    return TabularMDP(p, features(), discount=discount, start=np.full(N_STATES, 0.25))
 
 
 def draw_truth(rng: np.random.Generator, concentration: float = 1.0) -> np.ndarray:
