@@ -37,7 +37,7 @@ def main(folder: Path) -> None:
                               q_function=problem.q_function, **problem.solver)
     settings = {k: v for k, v in problem.sampler.items() if k != "seed"}
     cut = sample_cut(lik, problem.prior, dynamics=dynamics,
-                     dynamics_draws_n=problem.dynamics.draws, seed=problem.sampler["seed"],
+                     dynamics_draws=problem.dynamics.draws, seed=problem.sampler["seed"],
                      backend=Processes(2), progress=False, **settings)
     record = cut.summary(problem.report["level"])
     record["wall_time"] = cut.wall_time

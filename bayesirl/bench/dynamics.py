@@ -74,7 +74,7 @@ def run(quick: bool = False, log=print, size: int = SIZE, draws_d=DRAWS_D) -> di
     for d in draws_d:
         load = os.getloadavg()[0]
         t0 = time.perf_counter()
-        cut = sample_cut(lik, PRIOR, dynamics=post, dynamics_draws_n=d, seed=1,
+        cut = sample_cut(lik, PRIOR, dynamics=post, dynamics_draws=d, seed=1,
                          progress=False, **settings)
         wall = time.perf_counter() - t0
         runs = d + 1  # the cut fit also fits its plug-in

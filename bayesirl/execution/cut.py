@@ -28,10 +28,10 @@ if TYPE_CHECKING:
     from bayesirl.likelihood import BoltzmannLikelihood
     from bayesirl.model.transitions import DynamicsPosterior
 
-__all__ = ["dynamics_draws", "sample_cut", "under"]
+__all__ = ["draw_dynamics", "sample_cut", "under"]
 
 
-def dynamics_draws(dynamics: DynamicsPosterior, n: int, seed: int) -> list[sp.csr_matrix]:
+def draw_dynamics(dynamics: DynamicsPosterior, n: int, seed: int) -> list[sp.csr_matrix]:
     """The ``n`` dynamics draws of a cut fit with ``seed`` (``(S*A, S)`` CSR each)."""
     rng = np.random.default_rng(np.random.SeedSequence(int(seed)).spawn(2)[0])
     return [dynamics.draw(rng) for _ in range(int(n))]
@@ -66,12 +66,12 @@ def sample_cut(
     prior=None,
     *,
     dynamics: DynamicsPosterior,
-    dynamics_draws_n: int = 8,
+    dynamics_draws: int = 8,
     plug_in: bool = True,
     seed: int = 0,
     **options,
 ) -> CutPosterior:
-    """Sample the cut posterior: the reward posterior under each of ``dynamics_draws_n``
+    """Sample the cut posterior: the reward posterior under each of ``dynamics_draws``
     draws of the dynamics, pooled.
 
     Parameters
@@ -83,7 +83,7 @@ def sample_cut(
     dynamics : DynamicsPosterior
         The dynamics' posterior given the logged transitions
         (:class:`bayesirl.model.transitions.DynamicsPosterior`).
-    dynamics_draws_n : int
+    dynamics_draws : int
         How many dynamics draws (at least 2; the variance split needs several, and its
         between-draw part is itself estimated from them).
     plug_in : bool
@@ -107,13 +107,13 @@ def sample_cut(
     pooling = options.get("pooling")
     if getattr(pooling, "kind", pooling) not in (None, "pooled"):
         raise InputError("sample_cut: only pooled demonstrators with uncertain dynamics yet")
-    n = int(dynamics_draws_n)
+    n = int(dynamics_draws)
     if n < 2:
-        raise InputError(f"dynamics_draws_n: expected an integer >= 2; got {dynamics_draws_n!r}")
+        raise InputError(f"dynamics_draws: expected an integer >= 2; got {dynamics_draws!r}")
     t0 = time.perf_counter()
     seeds = run_seeds(n, seed)
     runs = [sample(under(likelihood, p), prior, seed=seeds[d], **options)
-            for d, p in enumerate(dynamics_draws(dynamics, n, seed))]
+            for d, p in enumerate(draw_dynamics(dynamics, n, seed))]
     plug = None
     if plug_in:
         plug = sample(under(likelihood, dynamics.mean()), prior, seed=seeds[n], **options)

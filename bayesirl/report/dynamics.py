@@ -27,7 +27,7 @@ def sentence(row: dict) -> str:
     if share >= 0.5:
         return (f"{name}: {pct} of its uncertainty comes from not knowing the transitions "
                 "well enough; that part stays however many demonstrations are added, so "
-                "logging more transitions narrows this interval most.")
+                "logging more transitions is the larger lever here.")
     return (f"{name}: {pct} of its uncertainty comes from not knowing the transitions, the "
             "rest from the demonstrations themselves; more demonstrations address the "
             "larger part, more logged transitions the smaller.")

@@ -217,7 +217,7 @@ def test_cut_fit_same_dynamics_and_draws_as_the_local_run(client):
     post = DynamicsPosterior(support, log_from_demonstrations(lik.demos),
                              n_actions=lik.mdp.n_actions)
     kwargs = {**RUN, "chains": 2, "draws": 20, "warmup": 20, "dynamics": post,
-              "dynamics_draws_n": 2, "plug_in": False}
+              "dynamics_draws": 2, "plug_in": False}
     here = sample_cut(lik, PRIOR, **kwargs, backend=Processes(1))
     there = sample_cut(lik, PRIOR, **kwargs, backend=Cluster(client))
     assert np.array_equal(here.weights, there.weights)

@@ -46,7 +46,7 @@ def replicate(r: int) -> tuple[np.ndarray, np.ndarray]:
     post = posterior_of(log)
     # The likelihood's own transitions are never used by sample_cut (only the draws).
     lik = BoltzmannLikelihood(mdp_with(p, DISCOUNT), demos)
-    cut = sample_cut(lik, Normal(0.0, 1.0), dynamics=post, dynamics_draws_n=DRAWS_D,
+    cut = sample_cut(lik, Normal(0.0, 1.0), dynamics=post, dynamics_draws=DRAWS_D,
                      seed=r, backend=Serial(), **SETTINGS)
     pooled = equal_tailed(cut.pooled(), LEVEL)
     plug = equal_tailed(cut.plug_in.weights, LEVEL)

@@ -13,7 +13,7 @@ from harness import sample_check
 
 from bayesirl.errors import InputError
 from bayesirl.execution.backend import Processes, Serial
-from bayesirl.execution.cut import dynamics_draws, run_seeds, sample_cut
+from bayesirl.execution.cut import draw_dynamics, run_seeds, sample_cut
 from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model.transitions import join_logs, log_from_demonstrations
 from bayesirl.posterior.dynamics import variance_split
@@ -61,8 +61,8 @@ def test_mc_floor_is_var_over_ess():
 
 def test_seeds_are_fixed_by_the_fit_seed():
     _, post = _setup(5)
-    a, b, c = dynamics_draws(post, 3, seed=4), dynamics_draws(post, 3, seed=4), \
-        dynamics_draws(post, 3, seed=5)
+    a, b, c = draw_dynamics(post, 3, seed=4), draw_dynamics(post, 3, seed=4), \
+        draw_dynamics(post, 3, seed=5)
     assert all(np.array_equal(x.toarray(), y.toarray()) for x, y in zip(a, b, strict=True))
     assert not np.array_equal(a[0].toarray(), c[0].toarray())
     assert run_seeds(3, 4) == run_seeds(3, 4) and len(set(run_seeds(3, 4))) == 4
@@ -71,9 +71,9 @@ def test_seeds_are_fixed_by_the_fit_seed():
 @pytest.mark.slow  # ~10 s: forks two workers
 def test_same_seed_same_draws_serial_and_processes():
     lik, post = _setup(5)
-    a = sample_cut(lik, dynamics=post, dynamics_draws_n=2, plug_in=False, seed=4,
+    a = sample_cut(lik, dynamics=post, dynamics_draws=2, plug_in=False, seed=4,
                    backend=Serial(), **{**SMALL, "draws": 30, "warmup": 30})
-    b = sample_cut(lik, dynamics=post, dynamics_draws_n=2, plug_in=False, seed=4,
+    b = sample_cut(lik, dynamics=post, dynamics_draws=2, plug_in=False, seed=4,
                    backend=Processes(2), **{**SMALL, "draws": 30, "warmup": 30})
     assert np.array_equal(a.weights, b.weights)
 
@@ -83,12 +83,12 @@ def test_refuses_what_it_cannot_do_yet():
     with pytest.raises(InputError, match="checkpoint"):
         sample_cut(lik, dynamics=post, checkpoint="x.npz")
     with pytest.raises(InputError, match=">= 2"):
-        sample_cut(lik, dynamics=post, dynamics_draws_n=1)
+        sample_cut(lik, dynamics=post, dynamics_draws=1)
 
 
 def _equivalence(per_row: int, draws_n: int, settings: dict):
     lik, post = _setup(per_row)
-    cut = sample_cut(lik, dynamics=post, dynamics_draws_n=draws_n, seed=2,
+    cut = sample_cut(lik, dynamics=post, dynamics_draws=draws_n, seed=2,
                      backend=Serial(), **settings)
     return cut
 

@@ -15,7 +15,7 @@ def _row(share: float, floor: float = 0.01) -> dict:
 @pytest.mark.parametrize("share, floor, words", [
     (0.015, 0.01, "no measurable part"),   # within twice the Monte-Carlo floor
     (0.3, 0.01, "more demonstrations address the larger part"),
-    (0.6, 0.01, "logging more transitions narrows this interval most"),
+    (0.6, 0.01, "logging more transitions is the larger lever"),
 ])
 def test_sentence_follows_the_share(share, floor, words):
     assert words in sentence(_row(share, floor))
