@@ -229,12 +229,15 @@ def _dynamics_lines(problem, demos) -> list[str]:
     from bayesirl.io.transitionfiles import dynamics_posterior
 
     post = dynamics_posterior(problem, demos)
+    where = problem.dynamics.transitions or "the demonstrations"
+    if not hasattr(post, "alpha"):  # a map's one slip probability
+        return [f"{where}: ok - {post.n_logged} transitions counted; posterior mean slip "
+                f"probability {post.slip_mean:.4f} (Beta{problem.dynamics.slip} prior)"]
     rows = post.n_states * post.n_actions
     alpha = post.alpha
     sums = np.add.reduceat(alpha.data, alpha.indptr[:-1])
     prior = post.concentration * np.diff(alpha.indptr)
     logged = int(np.count_nonzero(sums > prior + 0.5))
-    where = problem.dynamics.transitions or "the demonstrations"
     return [f"{where}: ok - {post.n_logged} transitions counted; {logged} of {rows} "
             f"(state, action) rows have some, the others keep their Dirichlet("
             f"{post.concentration:g}) prior on a support of {problem.dynamics.support!r}"]

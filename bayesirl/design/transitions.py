@@ -75,6 +75,9 @@ def rank_logging(cut, likelihood, *, target: str, extra: int = 20,
         raise InputError(f"extra: expected an integer >= 1; got {extra!r}")
     f = names.index(target)
     dyn = cut.dynamics
+    if not hasattr(dyn, "alpha"):
+        raise InputError("rank_logging: ranks the rows of per-row Dirichlet dynamics; a "
+                         "map's one slip probability has no rows to rank")
     w_draws = cut.plug_in.weights.reshape(-1, len(names))
     w, cov = w_draws.mean(axis=0), np.atleast_2d(np.cov(w_draws, rowvar=False))
     mean = dyn.mean()

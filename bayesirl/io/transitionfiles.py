@@ -24,7 +24,7 @@ from bayesirl.model.transitions import SUPPORTS, TransitionLog
 REQUIRED = ("state", "action", "next_state")
 COLUMNS = (*REQUIRED, "count")
 DYNAMICS_KEYS = {"transitions", "concentration", "support", "pattern", "draws",
-                 "demonstrations"}
+                 "demonstrations", "slip"}
 
 
 @dataclass(frozen=True)
@@ -37,6 +37,7 @@ class DynamicsSettings:
     pattern: Path | None  # .npz with a boolean "support" array (S, A, S), for "pattern"
     draws: int  # dynamics draws of the cut posterior
     demonstrations: bool  # count the transitions inside the demonstrations too
+    slip: tuple[float, float] | None = None  # a map's one slip probability: Beta(a, b) prior
 
 
 def dynamics_from(table: Table) -> DynamicsSettings:
@@ -47,7 +48,21 @@ def dynamics_from(table: Table) -> DynamicsSettings:
     if (support == "pattern") != (pattern is not None):
         raise InputError(f"{table.where('pattern')}: give a pattern file exactly when "
                          "support = \"pattern\"")
+    slip = None
+    if "slip" in table:
+        v = table.data["slip"]
+        ok = isinstance(v, list) and len(v) == 2 and all(
+            isinstance(x, int | float) and not isinstance(x, bool) and 0 < x < float("inf")
+            for x in v)
+        if not ok:
+            raise table.fail("slip", v, "[a, b], the two positive parameters of the slip "
+                             "probability's Beta prior")
+        if "concentration" in table or "support" in table or pattern is not None:
+            raise InputError(f"{table.where('slip')}: a map's slip probability replaces the "
+                             "per-row Dirichlet: drop concentration, support and pattern")
+        slip = (float(v[0]), float(v[1]))
     return DynamicsSettings(
+        slip=slip,
         transitions=table.path("transitions", None),
         concentration=table.number("concentration", 1.0, low=0.0, low_open=True),
         support=support, pattern=pattern, draws=table.integer("draws", 8, low=2),
@@ -189,6 +204,8 @@ def dynamics_posterior(problem, demos=None):
         raise InputError(f"{problem.source}: [dynamics] names no transitions file and "
                          "demonstrations = false: there is no transition evidence")
     log = join_logs(*logs)
+    if d.slip is not None:
+        return _slip_posterior(problem, log, filed)
     pattern = None
     if d.support == "pattern":
         pattern = read_pattern(d.pattern, (mdp.n_states, mdp.n_actions, mdp.n_states))
@@ -199,4 +216,27 @@ def dynamics_posterior(problem, demos=None):
         return DynamicsPosterior(support, log, n_actions=mdp.n_actions,
                                  concentration=d.concentration)
     except InputError as err:  # only the demonstrations' transitions are left to fail
+        raise InputError(f"demonstrations: {err}") from None
+
+
+def _slip_posterior(problem, log, filed):
+    """A ``[map]`` problem's slip posterior (the map is read again for its two matrices)."""
+    from bayesirl.io.fields import load_toml
+    from bayesirl.io.grid import grid_arrays, parse_map
+    from bayesirl.model.slip import SlipPosterior
+
+    if problem.world != "map":
+        raise InputError(f"{problem.source}: [dynamics] slip needs a [map] world (a "
+                         f"[{problem.world}] problem has no slip probability)")
+    grid = parse_map(Table(load_toml(problem.source), problem.source, "").table("map"))
+    intended = grid_arrays(grid._replace(slip=0.0))[0]
+    slipped = grid_arrays(grid._replace(slip=1.0))[0]
+    if filed is not None:
+        support = (intended + slipped).astype(bool).tocsr()
+        check_support(problem.dynamics.transitions, *filed, support, problem.mdp.n_actions,
+                      problem)
+    try:
+        return SlipPosterior(intended, slipped, log, n_actions=problem.mdp.n_actions,
+                             prior=problem.dynamics.slip)
+    except InputError as err:
         raise InputError(f"demonstrations: {err}") from None
