@@ -91,3 +91,21 @@ def test_check_reports_the_slip(tmp_path, capsys):
     (tmp_path / "log.csv").write_text("state,action,next_state\n4,left,3\n")
     assert main(["check", str(tmp_path / "p.toml")]) == 0
     assert "posterior mean slip probability" in capsys.readouterr().out
+
+
+@pytest.mark.slow  # ~20 s wall on the loaded machine (fits in a fresh process)
+def test_a_cut_fit_runs_under_slip_draws():
+    from bayesirl.execution.backend import Serial
+    from bayesirl.execution.cut import draw_dynamics, sample_cut
+    from bayesirl.likelihood import BoltzmannLikelihood
+    from bayesirl.model import TabularMDP, simulate
+
+    post = _posterior(6, 4)
+    phi = np.eye(9)[:, :2]
+    mdp = TabularMDP(post.mean(), phi, discount=0.9)
+    demos = simulate(mdp, np.array([1.0, -1.0]), episodes=3, length=5, seed=0)
+    a, b = draw_dynamics(post, 2, seed=1)
+    assert not np.allclose(a.toarray(), b.toarray())  # two different slip probabilities
+    cut = sample_cut(BoltzmannLikelihood(mdp, demos), dynamics=post, dynamics_draws=2,
+                     backend=Serial(), chains=1, draws=20, warmup=20, progress=False)
+    assert cut.weights.shape == (2, 1, 20, 2) and cut.summary()["logged"] == 10
