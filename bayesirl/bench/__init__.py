@@ -11,9 +11,19 @@ import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
-from bayesirl.bench import design, engine, groups, large, large_report, report, ridge, sampler
+from bayesirl.bench import (
+    design,
+    dynamics,
+    engine,
+    groups,
+    large,
+    large_report,
+    report,
+    ridge,
+    sampler,
+)
 
-SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor")
+SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor", "dynamics")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -37,6 +47,9 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "groups" in only:
         log("groups: partial pooling of 10 and 30 demonstrators")
         results["groups"] = groups.run(quick=quick, log=log)
+    if "dynamics" in only:
+        log("dynamics: cut posterior with 8 and 32 dynamics draws against the plug-in")
+        results["dynamics"] = dynamics.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 

@@ -204,6 +204,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         from bayesirl.bench.groups import markdown
 
         lines += markdown(results["groups"])
+    if "dynamics" in results:
+        from bayesirl.bench.dynamics import markdown
+
+        lines += markdown(results["dynamics"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 

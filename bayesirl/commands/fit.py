@@ -33,6 +33,11 @@ OVERRIDES = ("chains", "draws", "warmup", "seed")
 def _load(problem_path, demos_path, comparisons_path=None):
     """``(problem, likelihood, further evidence terms)`` from the input files."""
     problem = read_problem(problem_path)
+    if problem.dynamics is not None:  # never fall back silently to known dynamics
+        raise InputError(f"{problem_path}: [dynamics]: bayesirl fit does not learn the "
+                         "dynamics yet; use bayesirl.execution.cut.sample_cut from Python "
+                         "(examples/machine_wear.py), or remove [dynamics] to take the "
+                         "transitions as known")
     demos, partial = evidence_files.read_any_episodes(demos_path, problem)
     if demos is None:
         raise InputError(f"{demos_path}: every episode has an unrecorded action or state; fit "

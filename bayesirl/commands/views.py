@@ -198,9 +198,11 @@ def check_command(args) -> int:
                  if getattr(args, "comparisons", None) else []):
         print(line)
     if args.demonstrations is None:
+        print(*_dynamics_lines(problem, None), sep="\n")
         print("no demonstration file given: structural findings need the demonstrations")
         return 0
     demos, partial = evidence_files.read_any_episodes(args.demonstrations, problem)
+    print(*_dynamics_lines(problem, demos), sep="\n")
     if partial is not None:
         print(*evidence_files.episode_lines(args.demonstrations, partial), sep="\n")
         if demos is None:
@@ -219,3 +221,26 @@ def check_command(args) -> int:
         print("bayesirl fit will sample these with a dense mass matrix: the posterior is a "
               "ridge along each combination above")
     return 0
+
+
+def _dynamics_lines(problem, demos) -> list[str]:
+    """What the ``[dynamics]`` table's transition evidence amounts to (checked in full)."""
+    if problem.dynamics is None:
+        return []
+    import numpy as np
+
+    from bayesirl.io.transitionfiles import dynamics_posterior
+
+    post = dynamics_posterior(problem, demos)
+    where = problem.dynamics.transitions or "the demonstrations"
+    if not hasattr(post, "alpha"):  # a map's one slip probability
+        return [f"{where}: ok - {post.n_logged} transitions counted; posterior mean slip "
+                f"probability {post.slip_mean:.4f} (Beta{problem.dynamics.slip} prior)"]
+    rows = post.n_states * post.n_actions
+    alpha = post.alpha
+    sums = np.add.reduceat(alpha.data, alpha.indptr[:-1])
+    prior = post.concentration * np.diff(alpha.indptr)
+    logged = int(np.count_nonzero(sums > prior + 0.5))
+    return [f"{where}: ok - {post.n_logged} transitions counted; {logged} of {rows} "
+            f"(state, action) rows have some, the others keep their Dirichlet("
+            f"{post.concentration:g}) prior on a support of {problem.dynamics.support!r}"]

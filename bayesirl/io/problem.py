@@ -22,12 +22,13 @@ from bayesirl.io.settings import (
     sampler_from,
     solver_from,
 )
+from bayesirl.io.transitionfiles import DynamicsSettings, dynamics_from
 from bayesirl.model import TabularMDP
 from bayesirl.posterior.groups import Pooling
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "solver", "pooling", "report"}
+            "solver", "pooling", "report", "dynamics"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -51,6 +52,8 @@ class Problem:
     blocked : states that demonstrations may never visit (blocked map cells)
     pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
     report : the report's ``level`` and optional ``tolerance`` (``[report]``)
+    dynamics : ``[dynamics]``: transition evidence and its Dirichlet prior (None: the
+        transitions are taken as known, the plug-in; see docs/dynamics.md)
     """
 
     mdp: TabularMDP
@@ -67,13 +70,15 @@ class Problem:
     solver: dict = field(default_factory=dict)
     pooling: Pooling = field(default_factory=Pooling)
     report: dict = field(default_factory=lambda: {"level": 0.9})
+    dynamics: DynamicsSettings | None = None
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
         names = self.action_names or ()
         if name in names:
             return names.index(name)
-        if name.strip().lstrip("-").isdigit():
+        digits = name.strip().lstrip("-")
+        if digits.isascii() and digits.isdigit():  # isdigit alone admits "²", which int refuses
             a = int(name)
             return a if 0 <= a < self.mdp.n_actions else None
         return None
@@ -158,4 +163,5 @@ def read_problem(path) -> Problem:
         solver=solver_from(top.table("solver", {})),
         pooling=pooling_from(top.table("pooling", {}), features),
         report=report_from(top.table("report", {})),
+        dynamics=dynamics_from(top.table("dynamics")) if "dynamics" in top else None,
     )

@@ -45,3 +45,17 @@ def machine_mdp(discount: float = DISCOUNT, levels: int = WEAR_LEVELS) -> Tabula
     start = np.zeros(levels)
     start[0] = 1.0
     return TabularMDP(p, phi, discount=discount, start=start, feature_names=FEATURES)
+
+
+def wear_log(machines: int = 12, months: int = 10, seed: int = 5) -> list[tuple[int, str, int]]:
+    """An invented maintenance log: ``machines`` machines at random wear levels 0-39, each
+    kept for ``months`` months, one ``(wear, "keep", next wear)`` record per month."""
+    rng = np.random.default_rng(seed)
+    rows = []
+    for _ in range(machines):
+        x = int(rng.integers(0, 40))
+        for _ in range(months):
+            nxt = min(x + int(rng.choice(3, p=WEAR_STEPS)), WEAR_LEVELS - 1)
+            rows.append((x, "keep", nxt))
+            x = nxt
+    return rows

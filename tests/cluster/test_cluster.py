@@ -200,3 +200,25 @@ def test_workers_with_another_bayesirl_version_are_refused(client, monkeypatch):
     monkeypatch.setattr(bayesirl.version, "__version__", "0.0.0-other")  # where it is read
     with pytest.raises(bi.InputError, match="workers run another bayesirl version"):
         bi.sample(problem(), PRIOR, **RUN, backend=Cluster(client))
+
+
+def test_cut_fit_same_dynamics_and_draws_as_the_local_run(client):
+    # Uncertain dynamics (issue 21): the dynamics are drawn in the calling process and each
+    # run's chains get their seed from the fit seed, so the cluster gives the same bits.
+    from bayesirl.execution.cut import sample_cut
+    from bayesirl.model.transitions import (
+        DynamicsPosterior,
+        log_from_demonstrations,
+        support_of,
+    )
+
+    lik = problem()
+    support = support_of("model", lik.mdp.transitions, lik.mdp.n_actions)
+    post = DynamicsPosterior(support, log_from_demonstrations(lik.demos),
+                             n_actions=lik.mdp.n_actions)
+    kwargs = {**RUN, "chains": 2, "draws": 20, "warmup": 20, "dynamics": post,
+              "dynamics_draws": 2, "plug_in": False}
+    here = sample_cut(lik, PRIOR, **kwargs, backend=Processes(1))
+    there = sample_cut(lik, PRIOR, **kwargs, backend=Cluster(client))
+    assert np.array_equal(here.weights, there.weights)
+    assert not np.array_equal(here.weights[0], here.weights[1])  # the runs differ
