@@ -50,9 +50,9 @@ def newton(dyn: Dynamics, reward_am, discount, starts, tol, max_iter, floor_fact
            budget: int, max_linear: int = 3000):
     """Run :func:`bayesirl.kernels.newton.soft_newton_csr`; returns its tuple on success or a
     :class:`Handover`; raises :class:`SolverError` as the Python path does."""
-    ba = dyn.by_action
+    ptr, idx, ba_ptr, ba_idx = dyn.kernel_index
     out = soft_newton_csr(
-        dyn.indptr, dyn.indices, dyn.data, ba.indptr, ba.indices, ba.data, reward_am,
+        ptr, idx, dyn.data, ba_ptr, ba_idx, dyn.by_action.data, reward_am,
         float(discount), np.ascontiguousarray(np.stack(starts)), float(tol), int(max_iter),
         float(floor_factor), int(max_linear), int(budget))
     values, q, policy, log_policy, it, matvecs, bound, status, detail = out
@@ -72,8 +72,9 @@ def adjoint(dyn: Dynamics, policy_am, discount, rhs, x0, rtol, max_linear, budge
     """``(I - g P_pi^T) m = rhs`` compiled: ``(m, mat-vecs, handed_over)``; when handed over,
     ``m`` is the partial solution to continue from with factors."""
     x0 = np.zeros(rhs.shape[0]) if x0 is None else np.asarray(x0, dtype=float)
+    ptr, idx = dyn.kernel_index[:2]
     m, rel, used, status = adjoint_csr(
-        dyn.indptr, dyn.indices, dyn.data, np.ascontiguousarray(policy_am), float(discount),
+        ptr, idx, dyn.data, np.ascontiguousarray(policy_am), float(discount),
         rhs, x0, float(rtol), int(max_linear), int(budget))
     if status == 2:
         raise SolverError(f"{what}: GMRES stopped at relative residual {rel:.3e} "

@@ -42,13 +42,15 @@ def _p_pi(dyn, policy):
 
 @pytest.mark.parametrize("transpose", [False, True])
 @pytest.mark.parametrize("deflate", [False, True])
-def test_gmres_kernel_matches_twin_and_spsolve(transpose, deflate):
+@pytest.mark.parametrize("itype", [np.int64, np.uint32])  # Dynamics.kernel_index is uint32
+def test_gmres_kernel_matches_twin_and_spsolve(transpose, deflate, itype):
     mdp, policy, rng = _problem(1)
     dyn = mdp.dynamics
     dat = scale_rows_by_policy(dyn.indptr, dyn.data, policy)
     rhs, x0 = rng.normal(size=60), 0.1 * rng.normal(size=60)
     target = 1e-11 * np.linalg.norm(rhs)
-    args = (dyn.indptr, dyn.indices, dat, 3, 0.95, rhs, x0, target, transpose, deflate, 7, 500)
+    ptr, idx = dyn.indptr.astype(itype), dyn.indices.astype(itype)
+    args = (ptr, idx, dat, 3, 0.95, rhs, x0, target, transpose, deflate, 7, 500)
     x, res, used, res0 = gmres_discounted(*args)
     x_ref, res_ref, used_ref, res0_ref = gmres_discounted_ref(*args)
     system = np.eye(60) - 0.95 * (_p_pi(dyn, policy).T if transpose else _p_pi(dyn, policy))
