@@ -7,9 +7,11 @@ from typing import NamedTuple
 import numpy as np
 import scipy.sparse as sp
 
-# Up to this many states the solvers use dense compiled Newton steps: sparse bookkeeping and
-# Krylov iterations would cost more than the arithmetic (measured: S = 42, 30x faster).
-DENSE_MAX_STATES = 200
+# Up to this many states the solvers use dense compiled Newton steps (LU of I - g P_pi).
+# Against the compiled sparse Newton-Krylov path (docs/solver.md, warm gradients, 1% walk):
+# dense wins at 50 states (0.20 vs 0.32 ms random, 0.25 vs 0.45 ms grid at 0.99), is about
+# even at 100 (0.49 vs 0.42, 0.63 vs 0.58) and loses 2.6-4x at 200 (its O(S^3) LU).
+DENSE_MAX_STATES = 100
 
 
 class Dynamics(NamedTuple):

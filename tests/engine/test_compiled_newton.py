@@ -141,19 +141,35 @@ def test_adjoint_kernel_matches_twin_and_spsolve():
 
 
 def test_soft_newton_takes_the_compiled_path_and_agrees_with_value_iteration():
-    """Above the dense limit (200 states) and without factors, soft_newton is one kernel
-    call; with a preconditioner on a grid it factors and continues in Python. Both meet value
-    iteration within the MacQueen-Porteus widths."""
+    """Above the dense limit and without factors, soft_newton is one kernel call; it meets
+    value iteration within the two MacQueen-Porteus widths."""
     for mdp in (random_mdp(250, discount=0.95, seed=6), slippery_grid(16, discount=0.99,
                                                                        seed=6)):
         reward = mdp.reward(np.random.default_rng(6).normal(size=mdp.n_features))
         assert mdp.dynamics.dense is None
         vi = soft_value_iteration(mdp.dynamics, reward, mdp.discount)
-        precond = Preconditioner()
-        for sol in (soft_newton(mdp.dynamics, reward, mdp.discount),
-                    soft_newton(mdp.dynamics, reward, mdp.discount, precond=precond)):
+        for precond in (None, Preconditioner()):
+            sol = soft_newton(mdp.dynamics, reward, mdp.discount, precond=precond)
             tol = sol.bound + vi.bound + 16 * EPS * np.abs(vi.values).max()
             np.testing.assert_allclose(sol.values, vi.values, rtol=0, atol=tol)
-    assert precond.factorisations >= 1  # the grid handed over to SuperLU
     with pytest.raises(SolverError, match="Newton"):
         soft_newton(mdp.dynamics, reward, mdp.discount, max_iter=1)
+
+
+def test_soft_newton_hands_over_to_factors_on_a_slow_grid():
+    """At 0.9999 a grid's GMRES steps exceed the budget: the kernel hands over, SuperLU
+    factors, and the result is a fixed point: one more backup moves V by a span within the
+    returned MacQueen-Porteus width (value iteration would need ~10^5 backups here)."""
+    mdp = slippery_grid(30, discount=0.9999, seed=6)
+    reward = mdp.reward(np.random.default_rng(6).normal(size=mdp.n_features))
+    precond = Preconditioner()
+    sol = soft_newton(mdp.dynamics, reward, mdp.discount, precond=precond)
+    assert precond.factorisations >= 1
+    plain = soft_newton(mdp.dynamics, reward, mdp.discount)  # compiled throughout
+    scale = mdp.discount / (1 - mdp.discount)
+    for s in (sol, plain):
+        q = reward.T + mdp.discount * mdp.dynamics.expected_next_by_action(s.values)
+        d = np.log(np.exp(q - q.max(axis=0)).sum(axis=0)) + q.max(axis=0) - s.values
+        assert scale * np.ptp(d) <= s.bound + 64 * scale * EPS * np.abs(s.values).max()
+    np.testing.assert_allclose(sol.values, plain.values, rtol=0,
+                               atol=sol.bound + plain.bound + 1e-9)
