@@ -17,6 +17,7 @@ from bayesirl.likelihood.counts import policy_feature_sum, push_back
 from bayesirl.likelihood.predict import predict, remember
 from bayesirl.solver import (
     Preconditioner,
+    compiled,
     forward_adjoint,
     soft_backward,
     soft_newton,
@@ -120,15 +121,26 @@ def _value_solve(mdp, reward, cache, guess, work):
 
 def _adjoint_solve(mdp, sol, cache, m0, work):
     """``(I - g P_pi^T) m = rho`` from the warm start ``m0``, retried cold if that fails."""
-    matrix = mdp.dynamics.policy_matrix_by_action(sol.policy_by_action)
+    dyn = mdp.dynamics
 
     def solve(x0, precond):
-        m, used = solve_discounted(
+        budget, used = compiled.factor_budget(dyn, precond), 0
+        if budget is not None:  # no factors in play: one kernel call, no scipy objects
+            x0, used, handed_over = compiled.adjoint(
+                dyn, sol.policy_by_action, mdp.discount, cache["rho"], x0,
+                cache["gradient_rtol"], cache["max_matvecs"], budget, "likelihood adjoint")
+            if not handed_over:
+                _add(work, adjoint_solves=1, adjoint_matvecs=used)
+                return x0
+        matrix = dyn.policy_matrix_by_action(sol.policy_by_action)
+        if budget is not None:  # GMRES asked for factors: continue from where it stopped
+            precond.refresh(matrix, mdp.discount)
+        m, more = solve_discounted(
             matrix, mdp.discount, cache["rho"], x0=x0, rtol=cache["gradient_rtol"],
             transpose=True, precond=precond, maxiter=cache["max_matvecs"],
             what="likelihood adjoint",
         )
-        _add(work, adjoint_solves=1, adjoint_matvecs=used)
+        _add(work, adjoint_solves=1, adjoint_matvecs=used + more)
         return m
 
     try:

@@ -7,9 +7,11 @@ from typing import NamedTuple
 import numpy as np
 import scipy.sparse as sp
 
-# Up to this many states the solvers use dense compiled Newton steps: sparse bookkeeping and
-# Krylov iterations would cost more than the arithmetic (measured: S = 42, 30x faster).
-DENSE_MAX_STATES = 200
+# Up to this many states the solvers use dense compiled Newton steps (LU of I - g P_pi).
+# Against the compiled sparse Newton-Krylov path (docs/solver.md, warm gradients, 1% walk):
+# dense wins at 50 states (0.20 vs 0.32 ms random, 0.25 vs 0.45 ms grid at 0.99), is about
+# even at 100 (0.49 vs 0.42, 0.63 vs 0.58) and loses 2.6-4x at 200 (its O(S^3) LU).
+DENSE_MAX_STATES = 100
 
 
 class Dynamics(NamedTuple):
@@ -24,6 +26,10 @@ class Dynamics(NamedTuple):
     by_action: sp.csr_matrix  # rows reordered to a*S + s, so E[V'] comes out as (A, S)
     dense: np.ndarray | None  # (A, S, S) copy for small problems (see DENSE_MAX_STATES)
     max_row_nnz: int  # most successors of any (s, a): the rounding bound of a backup uses it
+    # (indptr, indices) of by_state and of by_action for the compiled kernels, as uint32 when
+    # they fit: numba adds no negative-index check for unsigned indices and the gathers move
+    # half the bytes (a CSR mat-vec at S = 10^4: 154 -> 101 us, scipy's own 95 us).
+    kernel_index: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 
     @classmethod
     def from_csr(cls, matrix: sp.csr_matrix, n_actions: int) -> Dynamics:
@@ -35,6 +41,10 @@ class Dynamics(NamedTuple):
             dense = np.ascontiguousarray(
                 matrix.toarray().reshape(n_s, n_actions, n_s).transpose(1, 0, 2)
             )
+        by_action = matrix[order].tocsr()
+        itype = np.uint32 if matrix.nnz < 2**32 - 1 else np.int64
+        kernel_index = tuple(np.ascontiguousarray(a, dtype=itype) for a in (
+            matrix.indptr, matrix.indices, by_action.indptr, by_action.indices))
         return cls(
             matrix.indptr.astype(np.int64),
             matrix.indices.astype(np.int64),
@@ -42,9 +52,10 @@ class Dynamics(NamedTuple):
             n_s,
             n_actions,
             matrix,
-            matrix[order].tocsr(),
+            by_action,
             dense,
             int(np.diff(matrix.indptr).max(initial=1)),
+            kernel_index,
         )
 
     def expected_next(self, values: np.ndarray) -> np.ndarray:

@@ -31,6 +31,7 @@ import numpy as np
 
 from bayesirl.errors import SolverError
 from bayesirl.kernels import soft_max_actions, soft_newton_dense
+from bayesirl.solver import compiled
 from bayesirl.solver.defaults import DEFAULT_TOL
 from bayesirl.solver.dynamics import Dynamics
 from bayesirl.solver.linear import Preconditioner, solve_discounted
@@ -183,11 +184,28 @@ def soft_newton(
     reward_am, values = _start(dyn, reward, values0)
     if dyn.dense is not None:
         return _newton_dense(dyn, reward_am, discount, values, tol, max_iter)
-    scale = discount / (1.0 - discount) if discount > 0 else 0.0
     factor = rounding_factor(dyn.max_row_nnz, dyn.n_actions)
-    guesses = [g - g.mean() for g in guesses]
-    first = _best_start(dyn, reward_am, discount, [values, *guesses])
-    matvecs = len(guesses)
+    starts = [values, *(g - g.mean() for g in guesses)]
+    budget = compiled.factor_budget(dyn, precond)
+    done = matvecs = 0
+    if budget is not None:  # no factors in play: the whole solve in one kernel call
+        out = compiled.newton(dyn, reward_am, discount, starts, tol, max_iter, factor, budget)
+        if not isinstance(out, compiled.Handover):
+            return SoftSolution(*out[:7])
+        # A step wants a factorisation: factor at the iterate reached, continue below.
+        precond.refresh(dyn.policy_matrix_by_action(out.policy_by_action), discount)
+        starts, done, matvecs = [out.values], out.iterations, out.matvecs
+    return _newton_python(dyn, reward_am, discount, starts, tol, max_iter - done, precond,
+                          factor, done, matvecs)
+
+
+def _newton_python(dyn, reward_am, discount, starts, tol, max_iter, precond, factor, done,
+                   matvecs) -> SoftSolution:
+    """The Newton loop with :func:`solve_discounted` steps (LU-preconditioned GMRES)."""
+    scale = discount / (1.0 - discount) if discount > 0 else 0.0
+    first = _best_start(dyn, reward_am, discount, starts)
+    values = starts[0]
+    matvecs += len(starts) - 1
     for it in range(1, max_iter + 1):
         if first is not None:
             values, (q, new_values, policy), first = *first, None
@@ -198,7 +216,7 @@ def soft_newton(
         span = residual.max() - residual.min()
         size = _size(q, new_values, values)
         if _converged(span, scale, tol, factor, size):
-            return _finish(q, new_values, policy, residual, discount, it, matvecs)
+            return _finish(q, new_values, policy, residual, discount, done + it, matvecs)
         # Remove the constant part: the policy ignores it and the final shift restores it.
         centred = residual - residual.mean()
         # Forcing term: shrinks with the residual (superlinear convergence), but never asks
@@ -213,7 +231,8 @@ def soft_newton(
         values = values + step
         values -= values.mean()
     raise SolverError(
-        f"soft Newton: span of the Bellman residual still {span:.3e} after {max_iter} steps"
+        f"soft Newton: span of the Bellman residual still {span:.3e} after {done + max_iter} "
+        "steps"
     )
 
 
