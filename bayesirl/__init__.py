@@ -18,8 +18,10 @@ _EXPORTS = {
     "InputError": "bayesirl.errors",  # these three are imported above (they are light)
     "Interrupted": "bayesirl.errors",
     "SolverError": "bayesirl.errors",
-    "AmbiguityReport": "bayesirl.report",
-    "ambiguity": "bayesirl.report",
+    # From the submodule itself: once ``bayesirl.report.ambiguity`` is imported, the package
+    # attribute of that name is the submodule, not the function.
+    "AmbiguityReport": "bayesirl.report.ambiguity",
+    "ambiguity": "bayesirl.report.ambiguity",
     "Suggestion": "bayesirl.design",
     "suggest": "bayesirl.design",
     "BoltzmannLikelihood": "bayesirl.likelihood",
@@ -93,4 +95,4 @@ if TYPE_CHECKING:  # the same names, eagerly, for type checkers and IDEs
     from bayesirl.posterior import Posterior
     from bayesirl.posterior.groups import Pooling
     from bayesirl.priors import HalfNormal, Laplace, LogNormal, Normal, Prior, Uniform
-    from bayesirl.report import AmbiguityReport, ambiguity
+    from bayesirl.report.ambiguity import AmbiguityReport, ambiguity

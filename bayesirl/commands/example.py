@@ -19,8 +19,10 @@ def example_command(args, run_fit) -> int:
     ``run_fit(argv)`` runs ``bayesirl fit`` with the given arguments (the CLI's entry point).
     """
     if args.list:
+        # Pad to the longest name, so a long name never runs into its summary.
+        width = max(len(e.name) for e in EXAMPLES.values()) + 2
         for ex in EXAMPLES.values():
-            print(f"{ex.name:<10}{ex.summary}")
+            print(f"{ex.name:<{width}}{ex.summary}")
         return 0
     if args.name is None or args.folder is None:
         raise InputError("example: give a NAME and a folder, e.g. bayesirl example park "

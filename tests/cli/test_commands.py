@@ -50,6 +50,10 @@ def test_example_list(capsys):
     assert main(["example", "--list"]) == 0
     out = capsys.readouterr().out
     assert all(name in out for name in EXAMPLES)
+    # Each line is a name, a gap, then its summary (a long name once ran into its summary).
+    rows = {line.split()[0]: line for line in out.splitlines()}
+    assert set(rows) == set(EXAMPLES)
+    assert all(rows[n].startswith(n + "  ") for n in EXAMPLES)
 
 
 def _fit(tiny, out="run", *extra) -> int:

@@ -52,7 +52,7 @@ def test_worker_processes_and_a_cluster_cannot_be_combined():
         with pytest.raises(bi.InputError, match="backend: expected bayesirl.Serial()"):
             _sample(backend=bad)
     with pytest.raises(TypeError):
-        _sample(processes=2)  # noqa: the removed keyword is an error, not silently ignored
+        _sample(processes=2)  # the removed keyword is an error, not silently ignored
     with pytest.raises(bi.InputError, match="only sample's chains run in worker processes"):
         bi.suggest(None, backend=bi.Processes(2))
 

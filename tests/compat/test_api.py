@@ -70,3 +70,17 @@ def test_protocols_reject_other_objects():
 
 def test_the_package_ships_its_type_hints():
     assert (Path(bi.__file__).parent / "py.typed").is_file()
+
+
+def test_public_names_do_not_depend_on_import_order():
+    # Importing the submodule ``bayesirl.report.ambiguity`` first makes the package attribute
+    # of that name the submodule; the public ``bayesirl.ambiguity`` must stay the function.
+    # In a fresh interpreter, since this process may have imported either already.
+    import subprocess
+    import sys
+
+    code = ("import bayesirl.report.ambiguity, bayesirl, inspect; "
+            "assert inspect.isfunction(bayesirl.ambiguity), bayesirl.ambiguity; "
+            "assert inspect.isclass(bayesirl.AmbiguityReport)")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
