@@ -45,6 +45,9 @@ class Approximate(NamedTuple):
         (``min(1 - 1/log10(S), 0.7)``).
     elbo : tuple of float
         Each path's best ELBO estimate (up to the posterior's unknown normalising constant).
+    ess : float
+        Importance-sampling effective sample size ``1 / sum w^2`` of the smoothed weights
+        (Kish's; optimistic when k-hat is large).
     n_evals : int
         Log-posterior evaluations in all (with and without gradient).
     solver_failures : int
@@ -57,6 +60,7 @@ class Approximate(NamedTuple):
     k_hat: float
     threshold: float
     elbo: tuple[float, ...]
+    ess: float
     n_evals: int
     solver_failures: int
 
@@ -76,17 +80,24 @@ class Approximate(NamedTuple):
                 "do not read these numbers as the posterior, sample with bayesirl fit")
 
     def table(self, level: float = 0.9) -> list[str]:
-        """Lines: each weight's (and the rationality's) mean, sd and central interval."""
+        """Lines: each weight's (and the rationality's) mean, its Monte-Carlo error, sd
+        and central interval.
+
+        The error of a mean of the resampled draws adds the importance-sampling error
+        (``sd^2 / ess``) and that of resampling ``n`` draws (``sd^2 / n``)."""
         lo_p, hi_p = (1.0 - level) / 2.0, (1.0 + level) / 2.0
         cols = [(n, self.weights[:, i]) for i, n in enumerate(self.feature_names)]
         if self.rationality is not None:
             cols.append(("rationality", self.rationality))
-        head = f"{'':>14} {'mean':>9} {'sd':>9}  {level:.0%} central interval"
+        head = f"{'':>14} {'mean':>9} {'+-mcse':>8} {'sd':>9}  {level:.0%} central interval"
         rows = [head]
         for name, x in cols:
             lo, hi = np.quantile(x, [lo_p, hi_p])
-            rows.append(f"{name:>14} {x.mean():9.3f} {x.std(ddof=1):9.3f}  "
+            sd = x.std(ddof=1)
+            mcse = sd * np.sqrt(1.0 / self.ess + 1.0 / x.shape[0])
+            rows.append(f"{name:>14} {x.mean():9.3f} {mcse:8.3f} {sd:9.3f}  "
                         f"[{lo:.3f}, {hi:.3f}]")
+        rows.append(f"importance-sampling ESS {self.ess:.0f}")
         return rows
 
 
@@ -140,4 +151,5 @@ def approximate(
     return Approximate(tuple(model.feature_names), weights, beta if sampled else None,
                        float(result.k_hat), float(result.psis.threshold),
                        tuple(float(p.best.elbo) for p in result.paths),
+                       float(1.0 / np.sum(np.exp(2.0 * result.psis.log_weights))),
                        int(result.n_evals + counted.calls), int(model.solver_failures))
