@@ -72,9 +72,15 @@ class Approximate(NamedTuple):
     def verdict(self) -> str:
         """One sentence: may the draws be read as the posterior?"""
         if self.trusted:
+            # Vehtari et al. (2024): above 0.5 the ratios' variance is infinite and the
+            # estimate converges more slowly than the ESS suggests (measured in
+            # docs/pathfinder.md: a bias beyond the printed errors at k-hat ~0.6).
+            tail = ("" if self.k_hat <= 0.5 else "; k-hat above 0.5 means a heavy tail of "
+                    "importance ratios, so the errors shown may be too small")
             return (f"Pareto k-hat {self.k_hat:.2f} <= {self.threshold:.2f}: the importance "
-                    "check passes, so these draws approximate the posterior; an approximation "
-                    "all the same - sample with bayesirl fit for the intervals you report")
+                    f"check passes, so these draws approximate the posterior{tail}; an "
+                    "approximation all the same - sample with bayesirl fit for the intervals "
+                    "you report")
         return (f"Pareto k-hat {self.k_hat:.2f} > {self.threshold:.2f}: NOT TRUSTWORTHY - "
                 "the posterior is too far from a normal distribution for this approximation; "
                 "do not read these numbers as the posterior, sample with bayesirl fit")

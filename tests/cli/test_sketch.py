@@ -38,6 +38,9 @@ def test_above_the_threshold_the_result_refuses_to_be_trusted(tiny, capsys, monk
     assert not bad.trusted and "NOT TRUSTWORTHY" in bad.verdict()
     assert "passes" not in bad.verdict()
     assert good.trusted and "NOT" not in good.verdict()
+    # Between 0.5 and the threshold: passes, with the heavy-tail caveat; at or below 0.5 without.
+    assert "errors shown may be too small" in good.verdict()
+    assert "too small" not in _record(0.5).verdict() and _record(0.5).trusted
     import bayesirl.execution.approximate as approx
 
     monkeypatch.setattr(approx, "approximate", lambda *a, **k: bad)
