@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from bayesirl.cli import main
 from bayesirl.execution.approximate import Approximate
@@ -79,3 +81,22 @@ def test_fit_start_reaches_sample_and_a_bad_start_in_the_file_is_refused(tiny, c
 @pytest.mark.parametrize("bad", ["--paths=0", "--draws=x", "--level=2"])
 def test_bad_options_exit_2(tiny, capsys, bad):
     assert _sketch(tiny, capsys, bad)[0] == 2
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.one_of(st.sampled_from(["uniform", "pathfinder", "Uniform", "laplace"]),
+                 st.text(max_size=12), st.integers(), st.booleans(), st.none()))
+def test_sampler_start_accepts_only_its_two_words(value):
+    # The [sampler] start validator: the two words pass, anything else is one InputError
+    # naming the file, table, key and value.
+    from bayesirl.errors import InputError
+    from bayesirl.io.fields import Table
+    from bayesirl.io.settings import sampler_from
+
+    table = Table({"start": value}, "p.toml", "sampler")
+    if value in ("uniform", "pathfinder"):
+        assert sampler_from(table)["start"] == value
+    else:
+        with pytest.raises(InputError, match=r"p.toml: \[sampler\] start"):
+            sampler_from(table)
+    assert "start" not in sampler_from(Table({}, "p.toml", "sampler"))  # absent by default
