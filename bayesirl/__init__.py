@@ -31,6 +31,8 @@ _EXPORTS = {
     "simulate": "bayesirl.model",
     "Posterior": "bayesirl.posterior",
     "sample": "bayesirl.execution",
+    "approximate": "bayesirl.execution.approximate",
+    "Approximate": "bayesirl.execution.approximate",
     "Backend": "bayesirl.execution.backend",
     "Cluster": "bayesirl.execution.backend",
     "Processes": "bayesirl.execution.backend",
@@ -59,6 +61,7 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "AmbiguityReport",
+    "Approximate",
     "Backend",
     "BoltzmannLikelihood",
     "Cluster",
@@ -80,6 +83,7 @@ __all__ = [
     "TabularMDP",
     "Uniform",
     "ambiguity",
+    "approximate",
     "sample",
     "simulate",
     "suggest",
@@ -89,6 +93,7 @@ __all__ = [
 if TYPE_CHECKING:  # the same names, eagerly, for type checkers and IDEs
     from bayesirl.design import Suggestion, suggest
     from bayesirl.execution import sample
+    from bayesirl.execution.approximate import Approximate, approximate
     from bayesirl.execution.backend import Backend, Cluster, Processes, Serial
     from bayesirl.likelihood import BoltzmannLikelihood, LikelihoodValue
     from bayesirl.model import Demonstrations, TabularMDP, simulate

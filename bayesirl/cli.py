@@ -64,6 +64,12 @@ def _fit(args):
     return fit_command(args)
 
 
+def _sketch(args):
+    from bayesirl.commands.sketch import sketch_command
+
+    return sketch_command(args)
+
+
 def _report(args):
     from bayesirl.commands.views import report_command
 
@@ -171,6 +177,10 @@ def _fit_parser(sub) -> None:
     fit.add_argument("--draws", type=_positive, help="override [sampler] draws per chain")
     fit.add_argument("--warmup", type=_count, help="override [sampler] warm-up iterations")
     fit.add_argument("--seed", type=_count, help="override [sampler] seed")
+    fit.add_argument("--start", choices=("uniform", "pathfinder"),
+                     help="override [sampler] start: where chains begin; pathfinder runs one "
+                          "Pathfinder path per chain for its start and initial mass matrix, "
+                          "so a shorter --warmup can do (default uniform)")
     fit.add_argument("--scheduler", metavar="ADDRESS",
                      help="run each chain as a task on a Dask cluster, e.g. tcp://host:8786, "
                           "or 'local' for a cluster on this machine (needs bayesirl[cluster]; "
@@ -182,6 +192,21 @@ _WHO = ("a run with several demonstrators: rank more demonstrations from this de
         "required there)")
 _NEW_WHO = ("a run with partial pooling: also rank a demonstration from a person not in the "
             "data yet, drawn from the population, in the same list (one pick: --budget 1)")
+
+
+def _sketch_parser(sub) -> None:
+    sk = _add(sub, "sketch", "a fast approximate posterior (multi-path Pathfinder) with a Pareto "
+              "k-hat check that says whether it can be read as the posterior; writes nothing",
+              "bayesirl sketch park.toml walks.csv --paths 4", _sketch)
+    sk.add_argument("problem", help="problem file (TOML)")
+    sk.add_argument("demonstrations", help="demonstrations (.csv or .jsonl)")
+    sk.add_argument("--comparisons", metavar="FILE", help="answers comparing episodes (.jsonl)")
+    sk.add_argument("--paths", type=_positive, default=4, help="L-BFGS paths (default 4)")
+    sk.add_argument("--draws", type=_positive, default=1000,
+                    help="draws per path for the importance check (default 1000)")
+    sk.add_argument("--seed", type=_count, help="seed (default: [sampler] seed)")
+    sk.add_argument("--level", type=_level, default=0.9,
+                    help="level of the central intervals shown (default 0.9)")
 
 
 def _other_parsers(sub) -> None:
@@ -288,6 +313,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser.set_defaults(debug=False, quiet=False)
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     _fit_parser(sub)
+    _sketch_parser(sub)
     _other_parsers(sub)
     bench = _add(sub, "bench", "measure the engine against a plain baseline; writes "
                  "reports/benchmark.md + .json", "bayesirl bench --quick --out /tmp/bench",

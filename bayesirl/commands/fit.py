@@ -27,7 +27,7 @@ from bayesirl.resources import check_sampling
 
 # The shell's convention for a process stopped by SIGINT (128 + 2).
 EXIT_INTERRUPTED = 130
-OVERRIDES = ("chains", "draws", "warmup", "seed")
+OVERRIDES = ("chains", "draws", "warmup", "seed", "start")
 
 
 def _load(problem_path, demos_path, comparisons_path=None):

@@ -22,7 +22,7 @@ from bayesirl.errors import InputError, SolverError
 from bayesirl.execution import interrupt
 from bayesirl.execution.interrupt import Guarded, Stopper, StopRequested
 from bayesirl.posterior.model import PosteriorModel
-from bayesirl.sampler import ChainResult
+from bayesirl.sampler import ChainResult, pathfinder
 from bayesirl.sampler.driver import Chain, ChainSettings
 
 # Stan's initialisation: uniform on (-2, 2) in the unconstrained space (common practice).
@@ -118,7 +118,7 @@ def _record(chain: Chain, warm: _Warm, elapsed: float) -> ChainRecord:
     return ChainRecord(meta, arrays)
 
 
-def _open(model, saved, seed, cfg, guard, stopper) -> Chain:
+def _open(model, saved, seed, cfg, guard, stopper, start: str = "uniform") -> Chain:
     if saved is not None:
         arrays = {k: v for k, v in saved.arrays.items() if not k.startswith(_LIK)}
         chain = Chain.from_record(guard, cfg, saved.meta, arrays)
@@ -127,8 +127,14 @@ def _open(model, saved, seed, cfg, guard, stopper) -> Chain:
         return chain
     init_seed, chain_seed = seed.spawn(2)
     # The initial point is searched with the full density (as before checkpoints existed).
-    theta0 = initial_point(Guarded(model, stopper), model.dim, np.random.default_rng(init_seed),
-                           lambda: model.solver_failures)
+    init_rng = np.random.default_rng(init_seed)
+    full = Guarded(model, stopper)
+    theta0 = initial_point(full, model.dim, init_rng, lambda: model.solver_failures)
+    if start == "pathfinder":  # the same generator goes on to the path's ELBO draws
+        theta0, metric, used = pathfinder.initial_state(
+            full, theta0, init_rng, dense=cfg.dense_mass,
+            logdensity=Guarded(model.logdensity, stopper))
+        return Chain.start(guard, theta0, cfg, chain_seed, metric=metric, evals_before=used)
     return Chain.start(guard, theta0, cfg, chain_seed)
 
 
@@ -148,7 +154,8 @@ def run_job(blob: bytes, k: int, seed: np.random.SeedSequence, settings: dict,
     cfg = chain_settings(settings)
     t0, before = time.perf_counter(), float(saved.meta["elapsed"]) if saved else 0.0
     try:
-        chain = _open(model, saved, seed, cfg, guard, stopper)
+        chain = _open(model, saved, seed, cfg, guard, stopper,
+                      settings.get("start", "uniform"))
     except StopRequested:
         return None
     warm = _Warm(model)

@@ -101,8 +101,9 @@ def load(path: Path, run: dict) -> list[ChainRecord | None]:
         if header[key] != run[key]:
             raise InputError(f"{where}: {key} was {header[key]!r}, this run has "
                              f"{run[key]!r}; resume with the same {key}")
-    for key, value in run["settings"].items():
-        if header["settings"].get(key) != value:
-            raise InputError(f"{where}: {key} was {header['settings'].get(key)!r}, this run "
-                             f"has {value!r}; resume with the same settings")
+    saved, now = header["settings"], run["settings"]
+    for key in sorted(set(saved) | set(now)):  # both ways: "start" is absent by default
+        if saved.get(key) != now.get(key):
+            raise InputError(f"{where}: {key} was {saved.get(key)!r}, this run has "
+                             f"{now.get(key)!r}; resume with the same settings")
     return records

@@ -44,8 +44,11 @@ def _whole(name: str, v, low: int) -> int:
     return int(v)
 
 
+STARTS = ("uniform", "pathfinder")
+
+
 def _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth,
-           target_accept) -> None:
+           target_accept, start="uniform") -> None:
     if likelihood is None or not hasattr(likelihood, "mdp") or not hasattr(likelihood,
                                                                             "evaluate"):
         raise InputError(f"likelihood: expected a BoltzmannLikelihood; got "
@@ -58,6 +61,8 @@ def _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth,
                                                  ("max_depth", max_depth, 1))}
     if method not in ("nuts", "random-walk"):
         raise InputError(f"method: expected 'nuts' or 'random-walk'; got {method!r}")
+    if not isinstance(start, str) or start not in STARTS:
+        raise InputError(f"start: expected one of {STARTS}; got {start!r}")
     if target_accept is not None:
         ok = isinstance(target_accept, int | float | np.floating) and not isinstance(
             target_accept, bool)
@@ -88,6 +93,7 @@ def sample(
     resume: bool = False,
     pooling: str | Pooling | None = None,
     evidence: Sequence[EvidenceTerm] = (),
+    start: str = "uniform",
 ) -> Posterior:
     """Sample the posterior over reward weights (and the rationality when it has a prior).
 
@@ -138,6 +144,14 @@ def sample(
         Evidence beside the demonstrations: ``bayesirl.evidence.PartialTerm`` (episodes with
         unrecorded actions or states), ``ComparisonTerm`` (answers between episodes), each
         with a fixed judge rationality. Pooled only.
+    start : {"uniform", "pathfinder"}
+        Where each chain starts. ``"uniform"`` (the default): a point drawn uniformly on
+        ``(-2, 2)`` per parameter, identity mass matrix. ``"pathfinder"``: from that point,
+        one Pathfinder path (L-BFGS plus normal approximations, the best by ELBO; see
+        docs/pathfinder.md) per chain; the chain starts at a draw from the best
+        approximation with its covariance (or the diagonal) as the initial mass matrix, so
+        a shorter ``warmup`` can reach the same diagnostics. Its density calls are counted
+        in ``settings["adapted"][k]["n_evals"]``.
 
     Returns
     -------
@@ -155,7 +169,8 @@ def sample(
     InputError
         Bad arguments, or a checkpoint that is missing or belongs to another run.
     """
-    _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth, target_accept)
+    _check(likelihood, prior, chains, draws, warmup, method, seed, max_depth, target_accept,
+           start)
     chains, draws, warmup, seed = int(chains), int(draws), int(warmup), int(seed)
     where = backend_of(backend, Processes())
     where.check(checkpoint=checkpoint is not None or bool(resume))
@@ -165,6 +180,8 @@ def sample(
     settings = {"draws": int(draws), "warmup": int(warmup), "method": method,
                 "dense_mass": bool(dense_mass), "target_accept": target_accept,
                 "max_depth": int(max_depth)}
+    if start != "uniform":  # absent for the default, so earlier runs' records still match
+        settings["start"] = start
     seeds = np.random.SeedSequence(seed).spawn(int(chains))
     path = None if checkpoint is None else Path(checkpoint)
     run = ckpt.identity(model, settings, seed, chains) if path is not None else None

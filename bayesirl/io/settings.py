@@ -88,7 +88,7 @@ def rationality_from(table: Table, features: list[str]) -> tuple[object, dict]:
 
 def sampler_from(table: Table) -> dict:
     """Keyword arguments for :func:`bayesirl.sample`."""
-    table.only({*SAMPLER_KEYS, "method", "target_accept", "max_depth", "dense_mass"})
+    table.only({*SAMPLER_KEYS, "method", "target_accept", "max_depth", "dense_mass", "start"})
     out = {"chains": table.integer("chains", 4, low=1), "draws": table.integer("draws", 1000,
                                                                                low=1),
            "warmup": table.integer("warmup", 1000, low=0), "seed": table.integer("seed", 0,
@@ -96,6 +96,8 @@ def sampler_from(table: Table) -> dict:
            "method": table.string("method", "nuts", choices=("nuts", "random-walk")),
            "max_depth": table.integer("max_depth", 10, low=1),
            "dense_mass": table.boolean("dense_mass", False)}
+    if "start" in table:  # absent unless given, so earlier runs' records are unchanged
+        out["start"] = table.string("start", "uniform", choices=("uniform", "pathfinder"))
     if "target_accept" in table:
         out["target_accept"] = table.number("target_accept", low=0.0, high=1.0, low_open=True,
                                             high_open=True)

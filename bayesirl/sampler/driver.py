@@ -76,6 +76,18 @@ class ChainState(NamedTuple):
     n_evals: int
 
 
+def _checked_metric(metric: np.ndarray, dim: int, dense: bool) -> np.ndarray:
+    metric = np.array(metric, dtype=float)
+    shape = (dim, dim) if dense else (dim,)
+    ok = metric.shape == shape and bool(np.all(np.isfinite(metric)))
+    if ok:
+        ok = bool(np.all(np.linalg.eigvalsh(metric) > 0) if dense else np.all(metric > 0))
+    if not ok:
+        raise InputError(f"metric: expected a positive-definite {shape} inverse mass matrix; "
+                         f"got shape {metric.shape}")
+    return metric
+
+
 class Chain:
     """A chain between iterations: create with :meth:`start` or :meth:`from_record`.
 
@@ -112,7 +124,8 @@ class Chain:
 
     @classmethod
     def start(cls, logdensity_and_grad: LogDensityAndGrad, initial_position: np.ndarray,
-              settings: ChainSettings, seed_or_rng) -> Chain:
+              settings: ChainSettings, seed_or_rng, *, metric: np.ndarray | None = None,
+              evals_before: int = 0) -> Chain:
         """Evaluate the start and search the first step size (this uses the generator).
 
         Parameters
@@ -122,6 +135,12 @@ class Chain:
             Shape ``(dim,)``, with a finite log density.
         settings : ChainSettings
         seed_or_rng : int, numpy.random.SeedSequence or numpy.random.Generator
+        metric : numpy.ndarray, optional
+            Initial inverse mass matrix (``(dim,)``, or ``(dim, dim)`` with ``dense_mass``),
+            e.g. from a Pathfinder approximation; default the identity. Warmup's slow
+            windows replace it as usual.
+        evals_before : int, default 0
+            Density calls already spent on this chain's start (counted in ``n_evals``).
 
         Returns
         -------
@@ -131,9 +150,13 @@ class Chain:
         position = np.array(initial_position, dtype=float)
         dim = position.shape[0] if position.ndim == 1 else 0
         chain = cls(logdensity_and_grad, settings, np.random.default_rng(seed_or_rng), dim)
+        chain._counted.calls = int(evals_before)
         kernel = chain.kernel
         state = kernel.init(position)
-        metric = np.eye(dim) if settings.dense_mass else np.ones(dim)
+        if metric is None:
+            metric = np.eye(dim) if settings.dense_mass else np.ones(dim)
+        else:
+            metric = _checked_metric(metric, dim, settings.dense_mass)
         step_size = kernel.initial_step_size(chain.rng, state, metric, 1.0)
         averager = dual_averaging_init(step_size, math.log(kernel.mu_factor * step_size))
         chain.state = ChainState(0, state, step_size, averager,

@@ -14,7 +14,8 @@ from bayesirl.scenarios.bundled import EXAMPLES
 
 from .helpers import run_subprocess
 
-SUBCOMMANDS = ("fit", "report", "suggest", "check", "compare", "example", "validate", "bench")
+SUBCOMMANDS = ("fit", "sketch", "report", "suggest", "check", "compare", "example", "validate",
+               "bench")
 
 
 # Our own status lines on stderr during a successful example run; anything else there (a

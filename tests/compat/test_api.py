@@ -13,7 +13,7 @@ import bayesirl as bi
 from bayesirl.evidence.term import EvidenceTerm
 
 # Public callables and how many arguments each may take by position ("the first one or two").
-POSITIONAL = {"sample": 2, "suggest": 2, "ambiguity": 1, "simulate": 2,
+POSITIONAL = {"sample": 2, "approximate": 2, "suggest": 2, "ambiguity": 1, "simulate": 2,
               "BoltzmannLikelihood": 2, "TabularMDP": 2, "Demonstrations": 1}
 
 

@@ -113,3 +113,17 @@ def test_complete_flag_is_saved_and_restored(tmp_path, monkeypatch):
     uninterrupted("nuts", 1).save(tmp_path / "full.nc")
     assert bi.Posterior.load(tmp_path / "full.nc").complete is True
     assert RUN["chains"] == 2  # the stop hooks above assume two chains
+
+
+def test_a_pathfinder_start_resumes_exactly(tmp_path, monkeypatch):
+    # The path runs once, when the chain starts; the record holds everything after it.
+    path = tmp_path / "run.npz"
+    caught = interrupt(monkeypatch, path, StopHook(0, iteration=20), start="pathfinder")
+    full = sample(None, start="pathfinder")
+    kept, n = caught.posterior.settings["chains_kept"], caught.posterior.n_draws
+    assert np.array_equal(caught.posterior.weights, full.weights[kept, :n])
+    resumed = sample(path, resume=True, start="pathfinder")
+    assert_identical(resumed, full)
+    # The checkpoint belongs to a pathfinder run: resuming it as a uniform-start run is refused.
+    with pytest.raises(bi.InputError):
+        sample(path, resume=True)
