@@ -49,8 +49,20 @@ def comparison_lines(path, problem) -> list[str]:
     from bayesirl.io.comparisonfiles import read_comparisons
 
     found = read_comparisons(path, problem)
-    return [f"{path}: ok - {len(found.pairs)} answers comparing {len(found.episodes)} "
-            "episodes (Bradley-Terry choice on discounted returns)"]
+    n_tie = sum(found.ties)
+    model = ("Davidson's tie model on discounted returns" if problem.judge["tie"] is not None
+             else "Bradley-Terry choice on discounted returns")
+    return [f"{path}: ok - {len(found.pairs)} answers ({n_tie} 'no preference') comparing "
+            f"{len(found.episodes)} episodes ({model}; judge rationality "
+            f"{_setting(problem.judge['rationality'])}"
+            + ("" if problem.judge["tie"] is None
+               else f", tie parameter {_setting(problem.judge['tie'])}") + ")"]
+
+
+def _setting(value) -> str:
+    if isinstance(value, float | int):
+        return f"{value:g} (fixed)"
+    return f"sampled, log-normal prior (log_mean {value.mu:g}, log_sd {value.sigma:g})"
 
 
 def further_evidence(problem, found, comparisons_path) -> tuple:
@@ -67,7 +79,9 @@ def further_evidence(problem, found, comparisons_path) -> tuple:
         solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
         terms.append(PartialTerm(problem.mdp, found.partial, **solver))
     if comparisons_path is not None:
-        terms.append(read_comparisons(comparisons_path, problem).term(problem.mdp, 1.0))
+        found = read_comparisons(comparisons_path, problem)
+        terms.append(found.term(problem.mdp, problem.judge["rationality"],
+                                problem.judge["tie"]))
     return tuple(terms)
 
 

@@ -50,11 +50,23 @@ def discounted_features(mdp, states: np.ndarray, actions: np.ndarray) -> np.ndar
     return disc @ phi
 
 
-def _positive(value, what: str) -> tuple[str | None, float | None]:
-    """``(name, None)`` for a sampled quantity, ``(None, value)`` for a fixed number."""
+# Names of the term's sampled quantities when given a prior (one comparison term per model).
+SAMPLED_NAMES = {"rationality": "judge_rationality", "tie": "judge_tie"}
+
+
+def _positive(value, what: str, priors: dict) -> tuple[str | None, float | None]:
+    """``(name, None)`` for a sampled quantity, ``(None, value)`` for a fixed number. A prior
+    (an object with ``log_density``, e.g. ``bayesirl.LogNormal``) samples the quantity under
+    its :data:`SAMPLED_NAMES` name and is kept in ``priors``."""
     if isinstance(value, str):
         return value, None
-    v = float(value)
+    if hasattr(value, "log_density"):
+        priors[SAMPLED_NAMES[what]] = value
+        return SAMPLED_NAMES[what], None
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        v = float("nan")
     if not np.isfinite(v) or v <= 0:
         raise InputError(f"comparisons: {what} must be positive; got {value!r}")
     return None, v
@@ -69,16 +81,23 @@ class ComparisonTerm:
         Per answer, the preferred episode's discounted feature sum minus the other's (for a
         "no preference" answer, either order: the model is symmetric); see
         :func:`discounted_features`.
-    rationality : float or str
-        A fixed ``beta_c`` (positive) or the name of the quantity holding it (its gradient is
-        then reported in ``log(beta_c)``).
+    rationality : float, str or LogNormal
+        A fixed ``beta_c`` (positive); a prior, to sample it as ``"judge_rationality"``
+        (kept in :attr:`priors`, read by the posterior); or the name of a quantity someone
+        else provides. A sampled quantity's gradient is reported in ``log(beta_c)``.
     key, weights : str
         The term's key and the name of the weights it reads.
     ties : array of bool (K,), optional
         True where the answer was "no preference". Needs ``tie``.
-    tie : float or str, optional
-        Davidson's tie parameter ``nu`` (fixed, or the name of the sampled quantity; gradient
-        in ``log(nu)``). None: the judge was not offered "no preference" (Bradley-Terry).
+    tie : float, str or LogNormal, optional
+        Davidson's tie parameter ``nu``, as ``rationality`` (sampled as ``"judge_tie"``;
+        gradient in ``log(nu)``). None: the judge was not offered "no preference"
+        (Bradley-Terry).
+
+    Attributes
+    ----------
+    priors : dict
+        ``{quantity name: prior}`` of the quantities this term samples (empty if none).
     """
 
     def __init__(self, differences, rationality: float | str = 1.0, key: str = "comparisons",
@@ -95,8 +114,10 @@ class ComparisonTerm:
         if self.ties.any() and tie is None:
             raise InputError("comparisons: 'no preference' answers need the tie parameter "
                              "(Davidson 1970); the logistic choice model has no such outcome")
-        self.rationality_name, self.fixed = _positive(rationality, "rationality")
-        self.tie_name, self.tie_fixed = (None, None) if tie is None else _positive(tie, "tie")
+        self.priors: dict = {}
+        self.rationality_name, self.fixed = _positive(rationality, "rationality", self.priors)
+        self.tie_name, self.tie_fixed = ((None, None) if tie is None
+                                         else _positive(tie, "tie", self.priors))
         self.reads = tuple(n for n in (weights, self.rationality_name, self.tie_name)
                            if n is not None)
         self.n_evaluations = 0

@@ -16,6 +16,7 @@ from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml, path_argument
 from bayesirl.io.pooling import pooling_from
 from bayesirl.io.settings import (
+    judge_from,
     prior_from,
     rationality_from,
     report_from,
@@ -27,7 +28,7 @@ from bayesirl.posterior.groups import Pooling
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "solver", "pooling", "report"}
+            "solver", "pooling", "report", "judge"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -51,6 +52,8 @@ class Problem:
     blocked : states that demonstrations may never visit (blocked map cells)
     pooling : how named demonstrators share a reward (``[pooling]``; default pooled)
     report : the report's ``level`` and optional ``tolerance`` (``[report]``)
+    judge : the comparisons' judge: ``rationality`` and Davidson's ``tie`` parameter, each a
+        number (fixed), a LogNormal (sampled) or, for ``tie``, None (``[judge]``)
     """
 
     mdp: TabularMDP
@@ -67,6 +70,7 @@ class Problem:
     solver: dict = field(default_factory=dict)
     pooling: Pooling = field(default_factory=Pooling)
     report: dict = field(default_factory=lambda: {"level": 0.9})
+    judge: dict = field(default_factory=lambda: {"rationality": 1.0, "tie": None})
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -158,4 +162,5 @@ def read_problem(path) -> Problem:
         solver=solver_from(top.table("solver", {})),
         pooling=pooling_from(top.table("pooling", {}), features),
         report=report_from(top.table("report", {})),
+        judge=judge_from(top.table("judge", {})),
     )
