@@ -76,8 +76,7 @@ def further_evidence(problem, found, comparisons_path) -> tuple:
             raise InputError(f"{problem.source}: [model] q_function = "
                              f"{problem.q_function!r}; episodes with unrecorded actions or "
                              "states are modelled for the soft demonstrator only")
-        solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
-        terms.append(PartialTerm(problem.mdp, found.partial, **solver))
+        terms.append(PartialTerm(problem.mdp, found.partial, **problem.solver))
     if comparisons_path is not None:
         found = read_comparisons(comparisons_path, problem)
         terms.append(found.term(problem.mdp, problem.judge["rationality"],

@@ -61,8 +61,10 @@ def term_from_record(mdp, arrays: dict[str, np.ndarray], meta: dict, make_prior=
         s_cut = cut + np.arange(1, cut.size + 1)  # T + 1 states per episode
         states = np.split(np.asarray(arrays["states"], np.int64), s_cut[:-1])
         actions = np.split(np.asarray(arrays["actions"], np.int64), cut[:-1])
+        caps = {k: meta[k] for k in ("max_newton_steps", "max_linear_iterations")
+                if k in meta}  # absent from runs before the caps were passed on
         return PartialTerm(mdp, PartialEpisodes(states, actions), key=meta["key"],
-                           tol=meta["tol"], gradient_rtol=meta["gradient_rtol"])
+                           tol=meta["tol"], gradient_rtol=meta["gradient_rtol"], **caps)
     if meta.get("kind") == "comparisons":
         tie = meta.get("tie")
         return ComparisonTerm(arrays["differences"],
