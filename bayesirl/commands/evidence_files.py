@@ -84,34 +84,10 @@ def further_evidence(problem, found, comparisons_path) -> tuple:
     return tuple(terms)
 
 
-KIND_NAMES = {"demos": "fully recorded episodes", "partial": "episodes with unrecorded parts",
-              "comparisons": "comparisons"}
-
-
 def contribution_lines(posterior) -> list[str]:
     """What each kind of evidence did to each free weight's sd (the Laplace split of
     :mod:`bayesirl.evidence.contributions` at the posterior mean), or nothing for a model
-    with one kind of evidence."""
-    from bayesirl.evidence.contributions import split
+    with one kind of evidence (see :mod:`bayesirl.report.evidence_split`)."""
+    from bayesirl.report import evidence_split
 
-    model = posterior.model
-    if not getattr(model, "extra", ()) or posterior.weights.shape[1] == 0:
-        return []
-    w = posterior.weights.reshape(-1, posterior.weights.shape[-1]).mean(axis=0)
-    beta = (model.fixed_rationality if model.fixed_rationality is not None
-            else float(np.mean(posterior.rationality)))
-    names = [model.feature_names[i] for i in model.free]
-    var = np.asarray(model.prior.variance(len(model.feature_names)), float)[model.free]
-    found = split(model.evidence.terms, {"weights": w, "rationality": beta}, model.free, var)
-    lines = ["what each kind of evidence did to the weights' sd (Laplace reading at the "
-             "posterior mean; the sampled intervals are the answer):",
-             "  " + ", ".join(f"{n} {a:.3g} -> {b:.3g}" for n, a, b in
-                              zip(names, found.sd_prior, found.sd_all, strict=True))
-             + " (prior only -> all evidence)"]
-    for kind in found.kinds:
-        what = KIND_NAMES.get(kind.key, kind.key)
-        lines.append(f"  {what}: alone " + ", ".join(
-            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_alone, strict=True))
-            + "; all but these " + ", ".join(
-            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_without, strict=True)))
-    return lines
+    return evidence_split.lines(evidence_split.record(posterior))

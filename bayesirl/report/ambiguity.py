@@ -40,6 +40,8 @@ class AmbiguityReport:
     posterior: object = field(default=None, repr=False)
     # several demonstrators: the record of posterior.group_summary.demonstrator_summary
     demonstrators: dict | None = field(default=None, repr=False)
+    # several kinds of evidence: the record of report.evidence_split (summary.json too)
+    evidence: dict | None = None
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (the posterior itself is left out)."""
@@ -48,7 +50,8 @@ class AmbiguityReport:
                 "groups": self.groups, "directions": self.directions, "structural": self.structural,
                 "derived": self.derived, "policy_risk": self.policy_risk,
                 "diagnostics": self.diagnostics, "assumptions": self.assumptions,
-                "suggestions": self.suggestions, "caution": CAUTION}
+                "suggestions": self.suggestions, "caution": CAUTION,
+                **({"evidence_split": self.evidence} if self.evidence is not None else {})}
 
     def to_json(self, path) -> Path:
         """Write every number of the report as JSON (atomically)."""
@@ -169,6 +172,9 @@ def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None =
 
         demonstrators = demonstrator_summary(posterior, level)
     report.demonstrators = demonstrators
+    from bayesirl.report import evidence_split
+
+    report.evidence = evidence_split.record(posterior)
     report.verdict = headline(report)
     if demonstrators is not None:
         from bayesirl.report.groups_html import preamble
