@@ -209,6 +209,16 @@ def _other_parsers(sub) -> None:
                      help="a run with several demonstrators: rank more demonstrations from "
                           "this demonstrator (required there; a new demonstrator is not "
                           "supported)")
+    sug.add_argument("--comparisons", metavar="draws|FILE",
+                     help="rank comparison questions for a judge instead: 'draws' (pairs of "
+                          "episodes simulated from posterior draws' policies) or a .jsonl "
+                          "file of episodes and {\"ask\": [id, id]} lines (every pair "
+                          "without any); writes comparison-suggestions.json")
+    sug.add_argument("--pairs", type=_positive, default=20,
+                     help="with --comparisons draws: pairs to generate (default 20)")
+    sug.add_argument("--length", type=_positive, default=None,
+                     help="with --comparisons draws: steps per generated episode (default: "
+                          "the median demonstrated episode length)")
     sug.add_argument("--report", action="store_true",
                      help="also add the suggestions (table and map markers) to the run's "
                           "report.html")

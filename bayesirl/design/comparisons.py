@@ -98,7 +98,10 @@ def comparison_gains(draws, differences, rationality=1.0, tie=None) -> Compariso
     slope = np.where(np.isfinite(slope), slope, 0.0)
     influence = np.sum(slope * (p - p_bar), axis=-1) - (h_each - h_each.mean(axis=0))
     stderr = influence.std(axis=0, ddof=1) / np.sqrt(w.shape[0])
-    return ComparisonGains(np.maximum(gain, 0.0), stderr, p_bar[:, 0])
+    # Draws that agree on every answer's probability leave nothing to learn: exactly 0, not
+    # the rounding of two equal entropies.
+    agree = np.all(p.max(axis=0) == p.min(axis=0), axis=-1)
+    return ComparisonGains(np.where(agree, 0.0, np.maximum(gain, 0.0)), stderr, p_bar[:, 0])
 
 
 def comparison_gains_ref(draws, differences, rationality: float = 1.0) -> np.ndarray:

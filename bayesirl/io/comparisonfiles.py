@@ -116,3 +116,40 @@ def _answer(path, line, obj) -> tuple[str, str]:
     if names[0] == names[1]:
         raise InputError(f"{path} line {line}: episode {names[0]!r} compared with itself")
     return names[0], names[1]
+
+
+def read_candidates(path, problem) -> tuple[dict, list[tuple[str, str]]]:
+    """A file of candidate questions for ``bayesirl suggest --comparisons``: episodes as in a
+    comparison file, and lines ``{"ask": [id, id]}`` naming the pairs to consider (without
+    any, every pair of the file's episodes). Returns ``(episodes, pairs)``."""
+    path = path_argument(path)
+    if path.suffix.lower() not in (".jsonl", ".ndjson"):
+        raise InputError(f"{path}: candidate files are JSON Lines (.jsonl or .ndjson)")
+    episodes, asks = {}, []
+    for line, obj in json_lines(path, read_text(path, "candidate file")):
+        if isinstance(obj, dict) and "ask" in obj:
+            v = obj["ask"]
+            ok = set(obj) == {"ask"} and isinstance(v, list) and len(v) == 2 and all(
+                isinstance(x, str | int) and not isinstance(x, bool) for x in v)
+            if not ok or str(v[0]) == str(v[1]):
+                raise InputError(f"{path} line {line}: expected {{\"ask\": [id, id]}} naming "
+                                 f"two different episodes; got {obj!r}")
+            asks.append((line, str(v[0]), str(v[1])))
+            continue
+        ep = episode_line(path, line, obj, problem, set(episodes), len(episodes))
+        states, actions = np.asarray(ep.states, np.int64), np.asarray(ep.actions, np.int64)
+        try:
+            discounted_features(problem.mdp, states, actions)
+        except InputError as err:
+            raise InputError(f"{path} line {line}: episode {ep.name!r}: {err}") from None
+        episodes[ep.name] = (states, actions)
+    for line, a, b in asks:
+        for name in (a, b):
+            if name not in episodes:
+                raise InputError(f"{path} line {line}: episode {name!r} is not in the file")
+    names = list(episodes)
+    pairs = ([(a, b) for _, a, b in asks] if asks else
+             [(names[i], names[j]) for i in range(len(names)) for j in range(i + 1, len(names))])
+    if not pairs:
+        raise InputError(f"{path}: no question to rank; give at least two episodes")
+    return episodes, pairs
