@@ -297,8 +297,8 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--quick", action="store_true",
                        help="small sizes only (a smoke run; the committed report is a full run)")
     bench.add_argument("--only", default="",
-                       help="comma-separated suites to run: engine, sampler, design, groups "
-                            "(default: all)")
+                       help="comma-separated suites to run: engine, sampler, design, groups, "
+                            "evidence (default: all)")
     _large_options(bench)
     return parser
 

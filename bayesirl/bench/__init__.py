@@ -13,7 +13,7 @@ from pathlib import Path
 
 from bayesirl.bench import design, engine, groups, large, large_report, report, ridge, sampler
 
-SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor")
+SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor", "evidence")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -37,6 +37,11 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "groups" in only:
         log("groups: partial pooling of 10 and 30 demonstrators")
         results["groups"] = groups.run(quick=quick, log=log)
+    if "evidence" in only:
+        from bayesirl.bench import evidence
+
+        log("evidence: state-only walks against recorded actions; memory with gaps")
+        results["evidence"] = evidence.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 

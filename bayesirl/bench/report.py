@@ -204,6 +204,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         from bayesirl.bench.groups import markdown
 
         lines += markdown(results["groups"])
+    if "evidence" in results:
+        from bayesirl.bench.evidence import markdown as evidence_markdown
+
+        lines += evidence_markdown(results["evidence"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 
