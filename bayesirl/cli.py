@@ -189,6 +189,33 @@ def _other_parsers(sub) -> None:
                      help="states whose action probabilities to report, e.g. 0,8,24")
     rep.add_argument("--suggestions", action="store_true",
                      help="add the run's suggestions.json (from bayesirl suggest) to the page")
+    _suggest_parser(sub)
+    _compare_parser(sub)
+    chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
+               "structural identifiability findings, without sampling",
+               "bayesirl check park.toml walks.csv", _check)
+    chk.add_argument("problem", help="problem file (TOML)")
+    chk.add_argument("demonstrations", nargs="?", help="demonstration file (.csv or .jsonl)")
+    chk.add_argument("--comparisons", metavar="FILE",
+                     help="comparison answers between episodes (.jsonl) to check too")
+    ex = _add(sub, "example", "write a bundled example's files into a folder and run it end to "
+              "end into FOLDER/run", "bayesirl example park park-demo   (or: bayesirl example "
+              "--list)", _example)
+    ex.add_argument("name", nargs="?", help="example name (see --list)")
+    ex.add_argument("folder", nargs="?", help="folder for the example's files and run")
+    ex.add_argument("--list", action="store_true", help="name the bundled examples")
+    ex.add_argument("--force", action="store_true", help="replace an existing FOLDER/run")
+    val = _add(sub, "validate", "check the posterior's calibration by simulation (SBC); writes "
+               "reports/validation.md", "bayesirl validate --replications 50 --out /tmp/val",
+               _validate)
+    val.add_argument("--replications", type=_positive, default=200,
+                     help="simulated data sets per check (default 200)")
+    val.add_argument("--out", default="reports", help="folder for the report (default reports)")
+    val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
+
+
+def _suggest_parser(sub) -> None:
+    """``bayesirl suggest``."""
     sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
                "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
                _suggest)
@@ -226,28 +253,6 @@ def _other_parsers(sub) -> None:
                      help="split the policy solves and the candidate scoring across a Dask "
                           "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "
                           "machine (needs bayesirl[cluster]; same suggestions as without)")
-    _compare_parser(sub)
-    chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
-               "structural identifiability findings, without sampling",
-               "bayesirl check park.toml walks.csv", _check)
-    chk.add_argument("problem", help="problem file (TOML)")
-    chk.add_argument("demonstrations", nargs="?", help="demonstration file (.csv or .jsonl)")
-    chk.add_argument("--comparisons", metavar="FILE",
-                     help="comparison answers between episodes (.jsonl) to check too")
-    ex = _add(sub, "example", "write a bundled example's files into a folder and run it end to "
-              "end into FOLDER/run", "bayesirl example park park-demo   (or: bayesirl example "
-              "--list)", _example)
-    ex.add_argument("name", nargs="?", help="example name (see --list)")
-    ex.add_argument("folder", nargs="?", help="folder for the example's files and run")
-    ex.add_argument("--list", action="store_true", help="name the bundled examples")
-    ex.add_argument("--force", action="store_true", help="replace an existing FOLDER/run")
-    val = _add(sub, "validate", "check the posterior's calibration by simulation (SBC); writes "
-               "reports/validation.md", "bayesirl validate --replications 50 --out /tmp/val",
-               _validate)
-    val.add_argument("--replications", type=_positive, default=200,
-                     help="simulated data sets per check (default 200)")
-    val.add_argument("--out", default="reports", help="folder for the report (default reports)")
-    val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
 
 
 def _compare_parser(sub) -> None:
