@@ -101,7 +101,24 @@ def _assumptions(posterior) -> dict:
             "horizon": mdp.horizon, "discount": mdp.discount,
             "states": mdp.n_states, "actions": mdp.n_actions,
             "features": list(mdp.feature_names), "episodes": lik.demos.n_episodes,
-            "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior)}
+            "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior),
+            **_judge(posterior)}
+
+
+def _judge(posterior) -> dict:
+    """The comparisons' choice model, when the run has comparisons (else nothing)."""
+    terms = [t for t in getattr(posterior.model, "extra", ()) if hasattr(t, "davidson")]
+    if not terms:
+        return {}
+    t, priors = terms[0], getattr(posterior.model, "extra_priors", {})
+
+    def said(name, fixed):
+        return f"fixed at {fixed:g}" if fixed is not None else f"sampled, {priors.get(name)!r}"
+
+    model = ("Davidson ties (tie parameter " + said(t.tie_name, t.tie_fixed) + ")"
+             if t.davidson else "Bradley-Terry (no 'no preference' answer)")
+    return {"comparisons": f"{len(t)} answers, {model}; judge rationality "
+                           f"{said(t.rationality_name, t.fixed)}"}
 
 
 def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None = None,

@@ -116,3 +116,14 @@ def test_per_draw_quantities_carry_the_judge(run):
     alone = bi.BoltzmannLikelihood(lik.mdp, lik.demos).evaluate(run.weights[1, 7], 1.0)
     assert ll[1, 7].sum() == pytest.approx(alone.loglik, rel=1e-9)
     assert len(_policies(run, 1, 7)) == lik.demos.n_episodes
+
+
+def test_notebook_table_and_assumptions_name_the_judge(run):
+    from bayesirl.posterior.notebook import summary_rows
+    from bayesirl.report.ambiguity import _assumptions
+
+    _, rows = summary_rows(run, 0.9)
+    assert [r[0] for r in rows] == ["x", "y", "judge_rationality", "judge_tie"]
+    said = _assumptions(run)["comparisons"]
+    assert said.startswith("300 answers, Davidson ties (tie parameter sampled, LogNormal(")
+    assert "judge rationality sampled, LogNormal(mu=0.0, sigma=1.0)" in said
