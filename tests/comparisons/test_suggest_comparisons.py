@@ -43,7 +43,7 @@ def run(tmp_path_factory):
         (where / name).write_text(text)
     # the run folder fit writes, without its report (seconds, not tens of them)
     problem, lik, extra = _load(where / "p.toml", where / "e.csv", where / "c.jsonl")
-    post = bi.sample(lik, prior=problem.prior, evidence=extra, chains=1, draws=40, warmup=40,
+    post = bi.sample(lik, prior=problem.prior, evidence=extra, chains=1, draws=20, warmup=20,
                      backend=bi.Serial(), progress=False)
     (where / "run").mkdir()
     post.save(where / "run" / "posterior.nc")
