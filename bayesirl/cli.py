@@ -221,31 +221,7 @@ def _other_parsers(sub) -> None:
                      help="states whose action probabilities to report, e.g. 0,8,24")
     rep.add_argument("--suggestions", action="store_true",
                      help="add the run's suggestions.json (from bayesirl suggest) to the page")
-    sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
-               "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
-               _suggest)
-    sug.add_argument("run", help="run folder made by bayesirl fit")
-    sug.add_argument("--candidates", default="start-states",
-                     help="start-states (new episodes from each state), query-states (one "
-                          "labelled action at a state) or states as 0,5,12 "
-                          "(default start-states)")
-    sug.add_argument("--budget", type=_positive, default=1,
-                     help="number of demonstrations to choose together (default 1)")
-    sug.add_argument("--target", help="also report the expected sd after each pick of a "
-                     "feature's weight (water), a ratio (water/mud) or policy-risk")
-    sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
-    sug.add_argument("--outer", type=_positive, default=512, metavar="N",
-                     help="outer Monte-Carlo samples per candidate (default 512); more give a "
-                          "more settled ranking, in proportional time")
-    sug.add_argument("--demonstrator", metavar="NAME", action="append", help=_WHO)
-    sug.add_argument("--new-demonstrator", action="store_true", help=_NEW_WHO)
-    sug.add_argument("--report", action="store_true",
-                     help="also add the suggestions (table and map markers) to the run's "
-                          "report.html")
-    sug.add_argument("--scheduler", metavar="ADDRESS",
-                     help="split the policy solves and the candidate scoring across a Dask "
-                          "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "
-                          "machine (needs bayesirl[cluster]; same suggestions as without)")
+    _suggest_parser(sub)
     _compare_parser(sub)
     chk = _add(sub, "check", "validate a problem file (and demonstrations) and print the "
                "structural identifiability findings, without sampling",
@@ -268,6 +244,45 @@ def _other_parsers(sub) -> None:
                      help="simulated data sets per check (default 200)")
     val.add_argument("--out", default="reports", help="folder for the report (default reports)")
     val.add_argument("--processes", type=_positive, help="worker processes (default: all cores)")
+
+
+def _suggest_parser(sub) -> None:
+    """``bayesirl suggest``."""
+    sug = _add(sub, "suggest", "rank extra demonstrations by how much they would narrow the "
+               "posterior", "bayesirl suggest park-run --candidates start-states --budget 3",
+               _suggest)
+    sug.add_argument("run", help="run folder made by bayesirl fit")
+    sug.add_argument("--candidates", default="start-states",
+                     help="start-states (new episodes from each state), query-states (one "
+                          "labelled action at a state) or states as 0,5,12 "
+                          "(default start-states)")
+    sug.add_argument("--budget", type=_positive, default=1,
+                     help="number of demonstrations to choose together (default 1)")
+    sug.add_argument("--target", help="also report the expected sd after each pick of a "
+                     "feature's weight (water), a ratio (water/mud) or policy-risk")
+    sug.add_argument("--seed", type=_count, default=0, help="seed of the scoring (default 0)")
+    sug.add_argument("--outer", type=_positive, default=512, metavar="N",
+                     help="outer Monte-Carlo samples per candidate (default 512); more give a "
+                          "more settled ranking, in proportional time")
+    sug.add_argument("--demonstrator", metavar="NAME", action="append", help=_WHO)
+    sug.add_argument("--new-demonstrator", action="store_true", help=_NEW_WHO)
+    sug.add_argument("--comparisons", metavar="draws|FILE",
+                     help="rank comparison questions for a judge instead: 'draws' (pairs of "
+                          "episodes simulated from posterior draws' policies) or a .jsonl "
+                          "file of episodes and {\"ask\": [id, id]} lines (every pair "
+                          "without any); writes comparison-suggestions.json")
+    sug.add_argument("--pairs", type=_positive, default=20,
+                     help="with --comparisons draws: pairs to generate (default 20)")
+    sug.add_argument("--length", type=_positive, default=None,
+                     help="with --comparisons draws: steps per generated episode (default: "
+                          "the median demonstrated episode length)")
+    sug.add_argument("--report", action="store_true",
+                     help="also add the suggestions (table and map markers) to the run's "
+                          "report.html")
+    sug.add_argument("--scheduler", metavar="ADDRESS",
+                     help="split the policy solves and the candidate scoring across a Dask "
+                          "cluster, e.g. tcp://host:8786, or 'local' for a cluster on this "
+                          "machine (needs bayesirl[cluster]; same suggestions as without)")
 
 
 def _compare_parser(sub) -> None:
@@ -322,8 +337,8 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--quick", action="store_true",
                        help="small sizes only (a smoke run; the committed report is a full run)")
     bench.add_argument("--only", default="",
-                       help="comma-separated suites to run: engine, sampler, design, groups "
-                            "(default: all)")
+                       help="comma-separated suites to run: engine, sampler, design, groups, "
+                            "evidence (default: all)")
     _large_options(bench)
     return parser
 

@@ -23,7 +23,8 @@ from bayesirl.bench import (
     sampler,
 )
 
-SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor", "dynamics")
+SUITES = ("engine", "sampler", "design", "ridge", "groups", "competitor", "dynamics",
+          "evidence")
 
 
 def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[Path, Path]:
@@ -50,6 +51,11 @@ def run_all(folder: Path, quick: bool = False, only=SUITES, log=print) -> tuple[
     if "dynamics" in only:
         log("dynamics: cut posterior with 8 and 32 dynamics draws against the plug-in")
         results["dynamics"] = dynamics.run(quick=quick, log=log)
+    if "evidence" in only:
+        from bayesirl.bench import evidence
+
+        log("evidence: state-only walks against recorded actions; memory with gaps")
+        results["evidence"] = evidence.run(quick=quick, log=log)
     _keep_earlier(results, folder, only)
     return _write_main(results, folder)
 

@@ -208,6 +208,10 @@ def render(results: dict, appendix: list[str] = ()) -> str:
         from bayesirl.bench.dynamics import markdown
 
         lines += markdown(results["dynamics"])
+    if "evidence" in results:
+        from bayesirl.bench.evidence import markdown as evidence_markdown
+
+        lines += evidence_markdown(results["evidence"])
     return "\n".join([*lines, *appendix]) + "\n"
 
 

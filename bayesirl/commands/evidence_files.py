@@ -49,8 +49,20 @@ def comparison_lines(path, problem) -> list[str]:
     from bayesirl.io.comparisonfiles import read_comparisons
 
     found = read_comparisons(path, problem)
-    return [f"{path}: ok - {len(found.pairs)} answers comparing {len(found.episodes)} "
-            "episodes (Bradley-Terry choice on discounted returns)"]
+    n_tie = sum(found.ties)
+    model = ("Davidson's tie model on discounted returns" if problem.judge["tie"] is not None
+             else "Bradley-Terry choice on discounted returns")
+    return [f"{path}: ok - {len(found.pairs)} answers ({n_tie} 'no preference') comparing "
+            f"{len(found.episodes)} episodes ({model}; judge rationality "
+            f"{_setting(problem.judge['rationality'])}"
+            + ("" if problem.judge["tie"] is None
+               else f", tie parameter {_setting(problem.judge['tie'])}") + ")"]
+
+
+def _setting(value) -> str:
+    if isinstance(value, float | int):
+        return f"{value:g} (fixed)"
+    return f"sampled, log-normal prior (log_mean {value.mu:g}, log_sd {value.sigma:g})"
 
 
 def further_evidence(problem, found, comparisons_path) -> tuple:
@@ -64,41 +76,18 @@ def further_evidence(problem, found, comparisons_path) -> tuple:
             raise InputError(f"{problem.source}: [model] q_function = "
                              f"{problem.q_function!r}; episodes with unrecorded actions or "
                              "states are modelled for the soft demonstrator only")
-        solver = {k: v for k, v in problem.solver.items() if k in ("tol", "gradient_rtol")}
-        terms.append(PartialTerm(problem.mdp, found.partial, **solver))
+        terms.append(PartialTerm(problem.mdp, found.partial, **problem.solver))
     if comparisons_path is not None:
-        terms.append(read_comparisons(comparisons_path, problem).term(problem.mdp, 1.0))
+        found = read_comparisons(comparisons_path, problem)
+        terms.append(found.term(problem.mdp, problem.judge["rationality"],
+                                problem.judge["tie"]))
     return tuple(terms)
-
-
-KIND_NAMES = {"demos": "fully recorded episodes", "partial": "episodes with unrecorded parts",
-              "comparisons": "comparisons"}
 
 
 def contribution_lines(posterior) -> list[str]:
     """What each kind of evidence did to each free weight's sd (the Laplace split of
     :mod:`bayesirl.evidence.contributions` at the posterior mean), or nothing for a model
-    with one kind of evidence."""
-    from bayesirl.evidence.contributions import split
+    with one kind of evidence (see :mod:`bayesirl.report.evidence_split`)."""
+    from bayesirl.report import evidence_split
 
-    model = posterior.model
-    if not getattr(model, "extra", ()) or posterior.weights.shape[1] == 0:
-        return []
-    w = posterior.weights.reshape(-1, posterior.weights.shape[-1]).mean(axis=0)
-    beta = (model.fixed_rationality if model.fixed_rationality is not None
-            else float(np.mean(posterior.rationality)))
-    names = [model.feature_names[i] for i in model.free]
-    var = np.asarray(model.prior.variance(len(model.feature_names)), float)[model.free]
-    found = split(model.evidence.terms, {"weights": w, "rationality": beta}, model.free, var)
-    lines = ["what each kind of evidence did to the weights' sd (Laplace reading at the "
-             "posterior mean; the sampled intervals are the answer):",
-             "  " + ", ".join(f"{n} {a:.3g} -> {b:.3g}" for n, a, b in
-                              zip(names, found.sd_prior, found.sd_all, strict=True))
-             + " (prior only -> all evidence)"]
-    for kind in found.kinds:
-        what = KIND_NAMES.get(kind.key, kind.key)
-        lines.append(f"  {what}: alone " + ", ".join(
-            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_alone, strict=True))
-            + "; all but these " + ", ".join(
-            f"{n} {s:.3g}" for n, s in zip(names, kind.sd_without, strict=True)))
-    return lines
+    return evidence_split.lines(evidence_split.record(posterior))

@@ -135,6 +135,8 @@ def write_report(run: RunFolder, posterior, summary: dict, level: float = DEFAUL
 
     ``options`` go to :func:`bayesirl.report.ambiguity` (``tolerance``, ``states``,
     ``suggestions``, ``action_names``)."""
+    # the function from its module: once anything has imported the submodule
+    # bayesirl.report.ambiguity directly, the package attribute of that name is the module
     from bayesirl.report.ambiguity import ambiguity
 
     drop = ("note", "pid") if summary.get("complete") else ("pid",)

@@ -151,6 +151,13 @@ def suggest_command(args) -> int:
         print("warning: the run's sampler diagnostics failed "
               f"({'; '.join(posterior.diagnostics.warnings)}); suggestions from these draws "
               "may be wrong: run the fit longer first", file=sys.stderr)
+    if getattr(args, "comparisons", None):
+        if getattr(posterior, "groups", None) is not None:
+            raise InputError(f"{run.root}: comparison questions are ranked for one pooled "
+                             "reward; this run has several demonstrators")
+        from bayesirl.commands.comparison_queries import rank_comparisons
+
+        return rank_comparisons(args, run, posterior, summary, read_problem)
     who = list(getattr(args, "demonstrator", None) or [])
     if getattr(args, "new_demonstrator", False):
         who.append(design.NEW)

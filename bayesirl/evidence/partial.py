@@ -45,18 +45,25 @@ class PartialTerm(warm.WarmStarts):
     tol, gradient_rtol : float
         Tolerances of the soft Bellman and adjoint solves (as for BoltzmannLikelihood);
         kept in ``settings``.
+    max_newton_steps, max_linear_iterations : int
+        Caps on the Newton steps of a value solve and the iterations of a linear solve (the
+        problem file's ``[solver]``, as for BoltzmannLikelihood); kept in ``settings``.
     """
 
     def __init__(self, mdp, episodes: PartialEpisodes, key: str = "partial",
                  weights: str = "weights", rationality: str = "rationality",
-                 tol: float = 1e-10, gradient_rtol: float = soft.ADJOINT_RTOL) -> None:
+                 tol: float = 1e-10, gradient_rtol: float = soft.ADJOINT_RTOL,
+                 max_newton_steps: int = soft.MAX_NEWTON_STEPS,
+                 max_linear_iterations: int = soft.MAX_LINEAR_ITERATIONS) -> None:
         if not isinstance(episodes, PartialEpisodes):
             raise InputError(f"episodes: expected PartialEpisodes; got {type(episodes).__name__}")
         self.mdp, self.episodes, self.key = mdp, episodes, key
         self.weights_name, self.rationality_name = weights, rationality
         self.reads = (weights, rationality)
         self.steps, self.gaps = episodes.pieces(mdp)
-        self.settings = {"tol": float(tol), "gradient_rtol": float(gradient_rtol)}
+        self.settings = {"tol": float(tol), "gradient_rtol": float(gradient_rtol),
+                         "max_newton_steps": int(max_newton_steps),
+                         "max_linear_iterations": int(max_linear_iterations)}
         self._check_possible()
         self._cache = marginal.new_cache(mdp, self.settings)
         self.n_evaluations = 0

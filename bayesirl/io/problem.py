@@ -16,6 +16,7 @@ from bayesirl.io import arrays as arrays_mod
 from bayesirl.io.fields import Table, load_toml, path_argument
 from bayesirl.io.pooling import pooling_from
 from bayesirl.io.settings import (
+    judge_from,
     prior_from,
     rationality_from,
     report_from,
@@ -28,7 +29,7 @@ from bayesirl.posterior.groups import Pooling
 from bayesirl.resources import MAX_HORIZON, check_horizon
 
 TOP_KEYS = {"title", "model", "map", "arrays", "gym", "prior", "rationality", "sampler",
-            "solver", "pooling", "report", "dynamics"}
+            "solver", "pooling", "report", "dynamics", "judge"}
 WORLDS = ("map", "arrays", "gym")
 
 
@@ -54,6 +55,8 @@ class Problem:
     report : the report's ``level`` and optional ``tolerance`` (``[report]``)
     dynamics : ``[dynamics]``: transition evidence and its Dirichlet prior (None: the
         transitions are taken as known, the plug-in; see docs/dynamics.md)
+    judge : the comparisons' judge: ``rationality`` and Davidson's ``tie`` parameter, each a
+        number (fixed), a LogNormal (sampled) or, for ``tie``, None (``[judge]``)
     """
 
     mdp: TabularMDP
@@ -71,6 +74,7 @@ class Problem:
     pooling: Pooling = field(default_factory=Pooling)
     report: dict = field(default_factory=lambda: {"level": 0.9})
     dynamics: DynamicsSettings | None = None
+    judge: dict = field(default_factory=lambda: {"rationality": 1.0, "tie": None})
 
     def action_index(self, name: str) -> int | None:
         """The index of an action given by name or by a decimal index, else None."""
@@ -164,4 +168,5 @@ def read_problem(path) -> Problem:
         pooling=pooling_from(top.table("pooling", {}), features),
         report=report_from(top.table("report", {})),
         dynamics=dynamics_from(top.table("dynamics")) if "dynamics" in top else None,
+        judge=judge_from(top.table("judge", {})),
     )

@@ -86,6 +86,27 @@ def rationality_from(table: Table, features: list[str]) -> tuple[object, dict]:
     return value, pin
 
 
+def _positive_setting(table: Table, key: str, default):
+    """A positive number (fixed) or ``{ log_mean, log_sd }`` (sampled: a LogNormal prior)."""
+    if key not in table:
+        return default
+    if isinstance(table.data[key], dict):
+        sub = table.table(key)
+        sub.only({"log_mean", "log_sd"})
+        return LogNormal(sub.number("log_mean", 0.0),
+                         sub.number("log_sd", 1.0, low=0.0, low_open=True))
+    return table.number(key, low=0.0, low_open=True)
+
+
+def judge_from(table: Table) -> dict:
+    """``[judge]``: the rationality of whoever answered the comparisons (a number, default 1,
+    or ``{ log_mean, log_sd }`` to sample it) and Davidson's tie parameter ``tie`` (the same
+    forms; give it when "no preference" was a possible answer; absent: it was not)."""
+    table.only({"rationality", "tie"})
+    return {"rationality": _positive_setting(table, "rationality", 1.0),
+            "tie": _positive_setting(table, "tie", None)}
+
+
 def sampler_from(table: Table) -> dict:
     """Keyword arguments for :func:`bayesirl.sample`."""
     table.only({*SAMPLER_KEYS, "method", "target_accept", "max_depth", "dense_mass", "start"})

@@ -36,11 +36,17 @@ class PolicySolve(NamedTuple):
 
 
 def new_cache(mdp, settings: dict) -> dict:
-    """A discounted warm-start cache like the Boltzmann likelihood's (``rho`` set per call)."""
+    """A discounted warm-start cache like the Boltzmann likelihood's (``rho`` set per call).
+
+    ``settings``: ``tol``, ``gradient_rtol`` and optionally the iteration caps
+    ``max_newton_steps`` and ``max_linear_iterations`` (the problem file's ``[solver]``)."""
     lead = () if mdp.horizon is None else (mdp.horizon,)
     counts = _Counts(np.zeros(lead + (mdp.n_states * mdp.n_actions,)),
                      np.zeros(lead + (mdp.n_states,)), np.zeros(mdp.n_features))
-    return soft.new_cache(mdp, counts, **settings)
+    caps = {"max_steps": settings.get("max_newton_steps", soft.MAX_NEWTON_STEPS),
+            "max_matvecs": settings.get("max_linear_iterations", soft.MAX_LINEAR_ITERATIONS)}
+    return soft.new_cache(mdp, counts, tol=settings["tol"],
+                          gradient_rtol=settings["gradient_rtol"], **caps)
 
 
 class _Counts(NamedTuple):
@@ -56,8 +62,8 @@ def solve_policy(mdp, cache: dict, w: np.ndarray, beta: float, work: dict) -> Po
         sol = soft_backward(mdp.dynamics, reward, mdp.discount, mdp.horizon)
         return PolicySolve(sol.policy, sol, None)
     guess = predict(cache["path"], beta * w)
-    sol = soft._value_solve(mdp, reward, cache, guess, work)
-    soft._add(work, newton_steps=sol.iterations, value_matvecs=sol.matvecs)
+    sol = soft.value_solve(mdp, reward, cache, guess, work)
+    soft.add_work(work, newton_steps=sol.iterations, value_matvecs=sol.matvecs)
     cache["values"] = sol.values
     return PolicySolve(sol.policy, sol, guess)
 
@@ -81,7 +87,7 @@ def gradient(mdp, cache: dict, solved: PolicySolve, n_sa: np.ndarray, w: np.ndar
         m = adjoint_dense(mdp.dynamics.dense, sol.policy_by_action, g, cache["rho"])
     else:
         start = cache["adjoint"] if solved.guess is None else solved.guess[1]
-        m = soft._adjoint_solve(mdp, sol, cache, start, work)
+        m = soft.adjoint_solve(mdp, sol, cache, start, work)
         cache["adjoint"] = m
         cache["path"] = remember(cache["path"], beta * w, sol.values, m)
     return beta * (feature_total + policy_feature_sum(mdp, sol.policy, m))

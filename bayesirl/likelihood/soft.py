@@ -151,3 +151,10 @@ def _adjoint_solve(mdp, sol, cache, m0, work):
     _add(work, cold_retries=1)
     cache["precond"] = Preconditioner()
     return solve(None, cache["precond"])
+
+
+# Public names of the warm-started solves (each with its cold retry) and the work counter,
+# shared with likelihood.marginal, whose evidence sees the weights only through the policy.
+value_solve = _value_solve
+adjoint_solve = _adjoint_solve
+add_work = _add

@@ -112,7 +112,8 @@ def _policies(posterior, c: int, d: int) -> np.ndarray:
     lik = posterior.model.likelihood
     q = draw_quantities(posterior, c, d)
     beta = q["rationality"]
-    names = [k for k in q if k != "rationality"]
+    # the weights only: a judge's quantities (comparisons) play no part in the demonstrations
+    names = [k for k in q if k == "weights" or k.startswith("weights/")]
     tables = {k: np.exp(log_policy(lik.mdp, lik.q_function, np.asarray(q[k]), beta)[0])
               for k in names}
     tables = {k: (v if v.ndim == 3 else v[None]) for k, v in tables.items()}

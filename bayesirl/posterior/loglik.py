@@ -30,8 +30,9 @@ def draw_quantities(posterior, c: int, d: int) -> dict:
     """The evidence model's quantities at draw ``d`` of chain ``c``."""
     beta = (posterior.model.fixed_rationality if posterior.rationality is None
             else float(posterior.rationality[c, d]))
-    if posterior.groups is None:
-        return {"weights": posterior.weights[c, d], "rationality": beta}
+    if posterior.groups is None:  # with any quantity further evidence samples (a judge's)
+        return {"weights": posterior.weights[c, d], "rationality": beta,
+                **{n: float(x[c, d]) for n, x in getattr(posterior, "extra_draws", {}).items()}}
     w = posterior.groups["demonstrator_weights"][c, d]
     out = {weights_name(i): w[i] for i in range(w.shape[0])}
     out["rationality"] = beta

@@ -1,8 +1,10 @@
 """The log-posterior the samplers see: parameter layout, priors, pinning, rationality.
 
 Unconstrained vector ``theta`` = (free weights on their prior's scale, then ``log(beta)``
-when the rationality is unknown). When ``beta`` is sampled the data only see ``beta * w``,
-so the overall scale of ``w`` must be pinned by fixing one named weight.
+when the rationality is unknown, then the log of each positive quantity that further evidence
+samples, e.g. a judge's rationality, in the order of :attr:`PosteriorModel.extra_priors`).
+When ``beta`` is sampled the data only see ``beta * w``, so the overall scale of ``w`` must be
+pinned by fixing one named weight.
 """
 
 from __future__ import annotations
@@ -31,7 +33,9 @@ class PosteriorModel:
         Weights held fixed. Required (one weight) when the rationality is sampled.
     extra : sequence of evidence terms
         Evidence beside the demonstrations (``bayesirl.evidence.PartialTerm``,
-        ``ComparisonTerm``), each reading ``"weights"`` and perhaps ``"rationality"``.
+        ``ComparisonTerm``), each reading ``"weights"`` and perhaps ``"rationality"``, and
+        any positive quantities of its own with their priors in the term's ``priors``
+        (sampled on the log scale; see :attr:`extra_priors`).
     """
 
     pooling = "pooled"
@@ -50,8 +54,11 @@ class PosteriorModel:
         self.extra = tuple(extra)
         self.evidence = (pooled_evidence(likelihood) if not self.extra else
                          Evidence([BoltzmannTerm(likelihood, key="demos"), *self.extra]))
-        if not set(self.evidence.reads) <= {"weights", "rationality"}:
-            raise InputError(f"extra: terms may read weights and rationality only; got "
+        self.extra_priors = _extra_priors(self.extra)
+        allowed = {"weights", "rationality", *self.extra_priors}
+        if not set(self.evidence.reads) <= allowed:
+            raise InputError(f"extra: terms may read weights, rationality and quantities "
+                             f"they give a prior for ({sorted(self.extra_priors)}); got "
                              f"{list(self.evidence.reads)}")
         names = likelihood.mdp.feature_names
         self.feature_names = names
@@ -85,7 +92,25 @@ class PosteriorModel:
     @property
     def dim(self) -> int:
         """Length of ``theta``."""
+        return self.free.size + (self.fixed_rationality is None) + len(self.extra_priors)
+
+    @property
+    def _extra_at(self) -> int:
         return self.free.size + (self.fixed_rationality is None)
+
+    def extra_values(self, theta: np.ndarray) -> dict[str, float]:
+        """``theta`` -> the further evidence's sampled quantities (e.g. a judge's
+        rationality), by name; empty when there are none."""
+        k = self._extra_at
+        return {name: _exp(theta[k + i]) for i, name in enumerate(self.extra_priors)}
+
+    def _extra_prior(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
+        k, total = self._extra_at, 0.0
+        grads = np.empty(len(self.extra_priors))
+        for i, prior in enumerate(self.extra_priors.values()):
+            lp, g = prior.log_density(theta[k + i:k + i + 1])
+            total, grads[i] = total + lp, g[0]
+        return total, grads
 
     def unpack(self, theta: np.ndarray) -> tuple[np.ndarray, float]:
         """``theta`` -> (all weights, beta)."""
@@ -95,8 +120,7 @@ class PosteriorModel:
         if self.fixed_rationality is not None:
             return w, self.fixed_rationality
         # Saturate instead of warning: beyond the float range the caller sees 0 or inf.
-        log_beta = float(theta[k])
-        return w, (math.inf if log_beta > _LOG_MAX else math.exp(log_beta))
+        return w, _exp(theta[k])
 
     def logdensity_and_grad(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
         """Log-posterior (up to a constant) and its gradient in ``theta``.
@@ -107,10 +131,11 @@ class PosteriorModel:
         k = self.free.size
         prior = self._free_prior
         w, beta = self.unpack(theta)
-        if not _representable(beta):
+        more = self.extra_values(theta)
+        if not all(_representable(x) for x in (beta, *more.values())):
             return -np.inf, np.full(self.dim, np.nan)
         try:
-            value = self.evidence.evaluate({"weights": w, "rationality": beta})
+            value = self.evidence.evaluate({"weights": w, "rationality": beta, **more})
         except SolverError:
             self.solver_failures += 1
             return -np.inf, np.full(self.dim, np.nan)
@@ -119,9 +144,13 @@ class PosteriorModel:
         grad[:k] = value.grads["weights"][self.free] * prior.dtransform(theta[:k]) + g_w
         total = value.logp + lp_w
         if self.fixed_rationality is None:
-            lp_b, g_b = self.rationality_prior.log_density(theta[k:])
+            lp_b, g_b = self.rationality_prior.log_density(theta[k:k + 1])
             grad[k] = value.grads["rationality"] + g_b[0]
             total += lp_b
+        if more:
+            lp_x, g_x = self._extra_prior(theta)
+            grad[self._extra_at:] = [value.grads.get(n, 0.0) for n in more] + g_x
+            total += lp_x
         return float(total), grad
 
     def __call__(self, theta: np.ndarray) -> tuple[float, np.ndarray]:
@@ -131,16 +160,20 @@ class PosteriorModel:
         """Log-posterior without the gradient (for gradient-free samplers)."""
         k = self.free.size
         w, beta = self.unpack(theta)
-        if not _representable(beta):
+        more = self.extra_values(theta)
+        if not all(_representable(x) for x in (beta, *more.values())):
             return -np.inf
         try:
-            data = self.evidence.evaluate({"weights": w, "rationality": beta}, gradient=False)
+            data = self.evidence.evaluate({"weights": w, "rationality": beta, **more},
+                                          gradient=False)
             total = data.logp + self._free_prior.log_density(theta[:k])[0]
         except SolverError:
             self.solver_failures += 1
             return -np.inf
         if self.fixed_rationality is None:
-            total += self.rationality_prior.log_density(theta[k:])[0]
+            total += self.rationality_prior.log_density(theta[k:k + 1])[0]
+        if more:
+            total += self._extra_prior(theta)[0]
         return float(total)
 
     def spec(self) -> dict:
@@ -161,6 +194,27 @@ class PosteriorModel:
             "rationality": from_json(rat) if isinstance(rat, str) else float(rat),
             "pin": dict(spec["pin"]),
         }
+
+
+def _exp(log_x) -> float:
+    """``exp`` saturating to inf instead of warning beyond the float range."""
+    log_x = float(log_x)
+    return math.inf if log_x > _LOG_MAX else math.exp(log_x)
+
+
+def _extra_priors(terms) -> dict:
+    """``{name: prior}`` of the quantities the terms sample (each a LogNormal, one name once)."""
+    out = {}
+    for term in terms:
+        for name, prior in getattr(term, "priors", {}).items():
+            if name in out or name in ("weights", "rationality"):
+                raise InputError(f"extra: quantity {name!r} is sampled by two terms")
+            if not isinstance(prior, LogNormal):
+                raise InputError(f"extra: {name} needs a LogNormal prior (it is positive); "
+                                 f"got {prior!r}")
+            prior.params(1)
+            out[name] = prior
+    return out
 
 
 def _representable(beta: float) -> bool:

@@ -54,7 +54,7 @@ def summary_rows(posterior, level: float) -> tuple[list[str], list[list[str]]]:
     cols = [posterior.weights[..., i] for i in range(posterior.weights.shape[-1])]
     if posterior.rationality is not None:
         cols.append(posterior.rationality)
-    cols += group_columns(posterior.groups)
+    cols += group_columns(posterior.groups) + list(getattr(posterior, "extra_draws", {}).values())
     head = ["quantity", "mean", "sd", f"{lo:g}%", f"{hi:g}%", "R-hat", "ESS bulk", "ESS tail"]
     rows = []
     for k, (name, x) in enumerate(zip(d.names, cols, strict=True)):

@@ -52,6 +52,10 @@ class Posterior:
         ``demonstrator_weights`` ``(chains, draws, G, F)``, ``demonstrators`` (G names) and,
         for partial pooling, ``spread`` ``(chains, draws, F)``. ``weights`` then holds the
         population mean (partial) or the mean of the G demonstrators' weights (separate).
+    extra_draws : dict
+        ``{name: (chains, draws)}`` of the positive quantities further evidence samples (a
+        judge's rationality ``judge_rationality``, Davidson's tie parameter ``judge_tie``);
+        empty when there are none. Saved as posterior variables of those names.
     log_likelihood : None, or ``{"episodes": (chains, draws, E)}`` (with comparisons
         ``"comparisons": (chains, draws, K)``, and ``"steps": (chains, draws, N)`` if asked):
         each draw's log-likelihood per episode (demonstrations, then episodes with
@@ -61,8 +65,9 @@ class Posterior:
 
     def __init__(self, weights, rationality, stats, model: PosteriorModel, settings: dict,
                  seed: int, wall_time: float, chain_times, complete: bool = True,
-                 groups: dict | None = None) -> None:
+                 groups: dict | None = None, extra_draws: dict | None = None) -> None:
         self.weights = weights
+        self.extra_draws = dict(extra_draws or {})
         self.groups = groups
         self.rationality = rationality
         self.stats = stats
@@ -98,13 +103,16 @@ class Posterior:
             for j in range(d):
                 weights[i, j], beta[i, j] = model.unpack(thetas[i, j])
         sampled = model.fixed_rationality is None
+        names = tuple(getattr(model, "extra_priors", ()))
+        extra = {n: np.array([[model.extra_values(t)[n] for t in chain] for chain in thetas])
+                 for n in names}
         stats = {_STAT_NAMES[k]: np.stack([r.stats[k] for r in results]) for k in _STAT_NAMES}
         adapted = [{"step_size": float(r.step_size), "inv_mass": np.asarray(r.inv_mass).tolist(),
                     "n_evals": int(r.n_evals)} for r in results]
         settings = {**settings, "adapted": adapted}
         groups = group_draws(model, thetas) if hasattr(model, "group_names") else None
         return cls(weights, beta if sampled else None, stats, model, settings, seed,
-                   wall_time, chain_times, complete, groups)
+                   wall_time, chain_times, complete, groups, extra)
 
     # -- summaries ---------------------------------------------------------------------
     @property
@@ -122,7 +130,8 @@ class Posterior:
         """Names of every sampled quantity, in ArviZ's flattened order."""
         names = self.feature_names
         names = names + (("rationality",) if self.rationality is not None else ())
-        return names + group_names(self.groups, self.feature_names)
+        return (names + group_names(self.groups, self.feature_names)
+                + tuple(self.extra_draws))
 
     def _fixed_names(self) -> tuple[str, ...]:
         pinned = tuple(self.model.pin)
@@ -151,7 +160,7 @@ class Posterior:
         cols = [self.weights[..., i] for i in range(self.weights.shape[-1])]
         if self.rationality is not None:
             cols.append(self.rationality)
-        cols += group_columns(self.groups)
+        cols += group_columns(self.groups) + list(self.extra_draws.values())
         head = (f"{'parameter':<14}{'mean':>9}{'sd':>8}{f'{lo:g}%':>9}{f'{hi:g}%':>9}"
                 f"{'R-hat':>7}{'ESS bulk':>10}{'ESS tail':>10}")
         rows = [head] + group_heading(self.groups)
@@ -188,6 +197,7 @@ class Posterior:
         if self.rationality is not None:
             post["rationality"] = self.rationality
         add_groups(self.groups, post, dims, coords)
+        post.update(self.extra_draws)
         arrays, const_dims = storage.problem_arrays(self.model)
         dims.update(const_dims)
         const, observed = storage.split_observed(arrays)
@@ -219,6 +229,7 @@ class Posterior:
         beta = post["rationality"].values if "rationality" in post else None
         out = cls(post["weights"].values, beta, stats, model, meta["settings"], meta["seed"],
                   meta["wall_time"], meta["chain_times"], meta.get("complete", True),
-                  read_groups(post))
+                  read_groups(post),
+                  {n: post[n].values for n in getattr(model, "extra_priors", ()) if n in post})
         out.log_likelihood = read_log_likelihood(idata)
         return out

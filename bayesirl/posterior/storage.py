@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import numpy as np
@@ -15,6 +16,7 @@ from bayesirl.likelihood import BoltzmannLikelihood
 from bayesirl.model import Demonstrations, TabularMDP
 from bayesirl.posterior.groups import Pooling, make_model
 from bayesirl.posterior.model import PosteriorModel
+from bayesirl.priors import from_json
 
 FORMAT = "bayesirl-posterior/1"
 
@@ -120,7 +122,8 @@ def rebuild_model(const, meta: dict, observed=None) -> PosteriorModel:
     for i, term_meta in enumerate(pm.get("evidence", [])):
         prefix = f"evidence{i}_"
         arrays = {k[len(prefix):]: const[k].values for k in const if k.startswith(prefix)}
-        extra.append(term_from_record(mdp, arrays, term_meta))
+        extra.append(term_from_record(mdp, arrays, term_meta,
+                                      make_prior=lambda d: from_json(json.dumps(d))))
     return make_model(lik, pooling=pooling, extra=extra, **PosteriorModel.parse_spec(spec))
 
 

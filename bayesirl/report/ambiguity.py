@@ -40,6 +40,8 @@ class AmbiguityReport:
     posterior: object = field(default=None, repr=False)
     # several demonstrators: the record of posterior.group_summary.demonstrator_summary
     demonstrators: dict | None = field(default=None, repr=False)
+    # several kinds of evidence: the record of report.evidence_split (summary.json too)
+    evidence: dict | None = None
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (the posterior itself is left out)."""
@@ -48,7 +50,8 @@ class AmbiguityReport:
                 "groups": self.groups, "directions": self.directions, "structural": self.structural,
                 "derived": self.derived, "policy_risk": self.policy_risk,
                 "diagnostics": self.diagnostics, "assumptions": self.assumptions,
-                "suggestions": self.suggestions, "caution": CAUTION}
+                "suggestions": self.suggestions, "caution": CAUTION,
+                **({"evidence_split": self.evidence} if self.evidence is not None else {})}
 
     def to_json(self, path) -> Path:
         """Write every number of the report as JSON (atomically)."""
@@ -98,7 +101,24 @@ def _assumptions(posterior) -> dict:
             "horizon": mdp.horizon, "discount": mdp.discount,
             "states": mdp.n_states, "actions": mdp.n_actions,
             "features": list(mdp.feature_names), "episodes": lik.demos.n_episodes,
-            "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior)}
+            "steps": lik.demos.n_steps, "prior": repr(posterior.model.prior),
+            **_judge(posterior)}
+
+
+def _judge(posterior) -> dict:
+    """The comparisons' choice model, when the run has comparisons (else nothing)."""
+    terms = [t for t in getattr(posterior.model, "extra", ()) if hasattr(t, "davidson")]
+    if not terms:
+        return {}
+    t, priors = terms[0], getattr(posterior.model, "extra_priors", {})
+
+    def said(name, fixed):
+        return f"fixed at {fixed:g}" if fixed is not None else f"sampled, {priors.get(name)!r}"
+
+    model = ("Davidson ties (tie parameter " + said(t.tie_name, t.tie_fixed) + ")"
+             if t.davidson else "Bradley-Terry (no 'no preference' answer)")
+    return {"comparisons": f"{len(t)} answers, {model}; judge rationality "
+                           f"{said(t.rationality_name, t.fixed)}"}
 
 
 def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None = None,
@@ -169,6 +189,9 @@ def ambiguity(posterior: Posterior, *, level: float = 0.9, prior: Prior | None =
 
         demonstrators = demonstrator_summary(posterior, level)
     report.demonstrators = demonstrators
+    from bayesirl.report import evidence_split
+
+    report.evidence = evidence_split.record(posterior)
     report.verdict = headline(report)
     if demonstrators is not None:
         from bayesirl.report.groups_html import preamble

@@ -12,7 +12,15 @@ from html import escape
 
 import numpy as np
 
-from bayesirl.report import groups_html, maps, plots, predictive, suggestions, verdicts
+from bayesirl.report import (
+    evidence_split,
+    groups_html,
+    maps,
+    plots,
+    predictive,
+    suggestions,
+    verdicts,
+)
 from bayesirl.report.html_parts import CSS, Raw, figure, interval, mark, num, table
 
 # Stable anchors: other documents and the tests link to these, so renaming one is a break.
@@ -56,8 +64,8 @@ def render_html(report) -> str:
     body = [_header(report), _banner(report),
             f'<section id="verdict"><p class="verdict">{escape(report.verdict)}</p></section>',
             _nav(), groups_html.section(report)]
-    body += [_weights(report), _correlations(report), _directions(report),
-             _structural(report), _derived(report), _policy_risk(report),
+    body += [_weights(report), evidence_split.render(report), _correlations(report),
+             _directions(report), _structural(report), _derived(report), _policy_risk(report),
              _maps(report), predictive.render(report), suggestions.render(report),
              _diagnostics(report), _assumptions(report),
              section("caution", f'<p class="caution">{escape(verdicts.CAUTION)}</p>')]

@@ -1,4 +1,5 @@
-"""SBC problems for the further evidence kinds: state-only walks and comparisons.
+"""SBC problems for the further evidence kinds: state-only walks, comparisons, and
+comparisons with a sampled judge and "no preference" answers.
 
 Truths ``w ~ N(0, 1)`` per feature (known rationalities), data simulated given them, the
 posterior of ``N(0, 1)`` prior + one evidence term sampled with the real NUTS chain
@@ -133,4 +134,87 @@ class ComparisonSBC:
         return {"model": f"{self.pairs} answers over a pool of {self.pool} episodes, "
                          f"{self.n_features} features, judge rationality {self.rationality:g}",
                 "prior": "w ~ N(0, 1) per feature",
+                "sampler": f"NUTS, {self.chains} chains, {self.warmup} warmup"}
+
+
+@dataclass(frozen=True)
+class JudgeSBC:
+    """A sampled judge: comparisons with "no preference" answers (Davidson's model), the
+    judge's rationality ``beta_c`` and tie parameter ``nu`` unknown, beside a few
+    demonstrations (rationality 1 known) that set the weights' scale.
+
+    Truth: ``w ~ N(0, 1)`` per feature, ``log beta_c ~ N(judge)``, ``log nu ~ N(tie)``. The
+    posterior is the real :class:`~bayesirl.posterior.PosteriorModel` with the term's
+    LogNormal priors (so the parameter layout, the priors on the log scale and the
+    gradients of the sampled quantities are all under test), sampled by NUTS; ranks are of
+    ``(w, log beta_c, log nu)``.
+    """
+
+    n_features: int = 2
+    pool: int = 12
+    pairs: int = 40
+    episodes: int = 2
+    length: int = 5
+    judge: tuple[float, float] = (0.0, 0.5)
+    tie: tuple[float, float] = (-0.5, 0.5)
+    chains: int = 2
+    warmup: int = 150
+    mdp_seed: int = 7
+
+    names = ("w[0]", "w[1]", "log judge_rationality", "log judge_tie")
+
+    @cached_property
+    def mdp(self) -> TabularMDP:
+        """The small random MDP of :class:`StateOnlySBC` (discount 0.8)."""
+        return _random_mdp(self.mdp_seed, 5, 3, self.n_features, 0.8)
+
+    @cached_property
+    def features(self) -> np.ndarray:
+        """Discounted feature sums of the pool's episodes (random walks, fixed seed)."""
+        demos = simulate(self.mdp, np.zeros(self.n_features), episodes=self.pool, length=8,
+                         seed=self.mdp_seed)
+        return np.array([discounted_features(self.mdp, s, a) for s, a in demos.episodes])
+
+    def simulate(self, rng: np.random.Generator):
+        """Truth ``(w, log beta_c, log nu)`` and ``(demonstrations, differences, ties)``."""
+        w = rng.standard_normal(self.n_features)
+        log_b = self.judge[0] + self.judge[1] * rng.standard_normal()
+        log_nu = self.tie[0] + self.tie[1] * rng.standard_normal()
+        demos = simulate(self.mdp, w, episodes=self.episodes, length=self.length,
+                         seed=int(rng.integers(2**31)))
+        a = rng.integers(0, self.pool, self.pairs)
+        b = (a + rng.integers(1, self.pool, self.pairs)) % self.pool
+        d = self.features[a] - self.features[b]
+        z = np.exp(log_b) * d @ w
+        p = np.stack([np.exp(z / 2), np.exp(-z / 2), np.full(self.pairs, np.exp(log_nu))], 1)
+        p /= p.sum(axis=1, keepdims=True)
+        u = rng.random(self.pairs)
+        answer = (u > p[:, 0]).astype(int) + (u > p[:, 0] + p[:, 1])  # 0, 1 or 2 (tie)
+        oriented = np.where((answer == 1)[:, None], -d, d)
+        return np.array([*w, log_b, log_nu]), (demos, oriented, answer == 2)
+
+    def posterior(self, data, draws: int, seed: int) -> PosteriorDraws:
+        """NUTS on the PosteriorModel of demonstrations + comparison term."""
+        from bayesirl.likelihood import BoltzmannLikelihood
+        from bayesirl.posterior import PosteriorModel
+        from bayesirl.priors import LogNormal, Normal
+
+        demos, d, ties = data
+        term = ComparisonTerm(d, rationality=LogNormal(*self.judge), ties=ties,
+                              tie=LogNormal(*self.tie))
+        model = PosteriorModel(BoltzmannLikelihood(self.mdp, demos), Normal(0.0, 1.0), 1.0,
+                               extra=[term])
+        seeds = np.random.SeedSequence(seed).spawn(self.chains)
+        results = [run_chain(model.logdensity_and_grad, np.zeros(model.dim), draws,
+                             self.warmup, s) for s in seeds]
+        # theta is (w, log beta_c, log nu) already: Normal's transform is the identity
+        out = np.stack([r.draws for r in results])
+        return PosteriorDraws(out, int(sum(np.sum(r.stats["divergent"]) for r in results)))
+
+    def describe(self) -> dict[str, str]:
+        """Settings for the report."""
+        return {"model": f"{self.episodes} x {self.length}-step demonstrations and "
+                         f"{self.pairs} answers (Davidson ties) over a pool of {self.pool} "
+                         f"episodes, {self.n_features} features",
+                "prior": f"w ~ N(0, 1); log beta_c ~ N{self.judge}; log nu ~ N{self.tie}",
                 "sampler": f"NUTS, {self.chains} chains, {self.warmup} warmup"}

@@ -22,9 +22,18 @@ def blocks(lang: str) -> list[str]:
 
 
 def test_every_toml_block_is_valid_toml():
-    assert len(blocks("toml")) == 4
+    assert len(blocks("toml")) == 5
     for text in blocks("toml"):
         tomllib.loads(text)
+
+
+def test_judge_example_reads(tmp_path):
+    judge = [b for b in blocks("toml") if b.startswith("[judge]")]
+    assert len(judge) == 1
+    (tmp_path / "park.toml").write_text(blocks("toml")[0] + "\n" + judge[0])
+    got = read_problem(tmp_path / "park.toml").judge
+    assert got["rationality"] == 2.0
+    assert (got["tie"].mu, got["tie"].sigma) == (0.0, 1.0)
 
 
 def test_map_example_with_the_csv_and_jsonl_examples(tmp_path):

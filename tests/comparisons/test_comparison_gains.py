@@ -59,3 +59,28 @@ def test_pairs_from_posterior_draws():
     assert not np.array_equal(diffs, pairs_from_draws(mdp, draws, 6, 5, seed=4)[1])
     gains = comparison_gains(draws, diffs)
     assert np.all(gains.gain >= 0) and gains.order().size == 6
+
+
+def test_three_answers_and_per_draw_rationality_by_enumeration():
+    """Davidson's three answers and one beta_c per draw: the mutual information from the
+    joint table p(draw, answer) (Cover & Thomas ch. 2), each probability from its definition
+    (Davidson 1970), with no shared code."""
+    rng = np.random.default_rng(8)
+    draws, diffs = rng.normal(size=(9, 2)), rng.normal(size=(4, 2)) * 2
+    beta, nu = np.exp(rng.normal(size=9) * 0.5), np.exp(rng.normal(size=9) * 0.5)
+    got = comparison_gains(draws, diffs, rationality=beta, tie=nu)
+    for k in range(4):
+        joint = []
+        for i in range(9):
+            z = beta[i] * draws[i] @ diffs[k]
+            u = np.array([np.exp(z / 2), np.exp(-z / 2), nu[i]])
+            joint.append(u / u.sum() / 9)
+        joint = np.array(joint)
+        marg = joint.sum(axis=0)
+        mi = np.sum(joint * np.log(joint / (marg[None, :] / 9)))
+        assert got.gain[k] == pytest.approx(mi, abs=1e-13)
+    # a constant per-draw beta equals the scalar reference (the joint-table definition)
+    same = comparison_gains(draws, diffs, rationality=np.full(9, 1.3))
+    assert np.allclose(same.gain, comparison_gains_ref(draws, diffs, 1.3), rtol=0, atol=1e-13)
+    # negative control: a tie option changes the gains (a third answer carries information)
+    assert np.max(np.abs(got.gain - comparison_gains(draws, diffs, rationality=beta).gain)) > 1e-3

@@ -32,8 +32,26 @@ def test_check_reads_blanks_and_comparisons(tmp_path, capsys):
     files = {"e.csv": CSV, "c.jsonl": EPISODES + '{"preferred": "a", "other": "b"}\n'}
     code, out, _ = _run(tmp_path, capsys, files, "e.csv", "--comparisons", "c.jsonl")
     assert code == 0
-    assert "1 answers comparing 2 episodes" in out
+    assert "1 answers (0 'no preference') comparing 2 episodes (Bradley-Terry" in out
     assert "1 fully recorded, 2 with unrecorded parts (4 actions and 1 states" in out
+
+
+def test_ties_with_a_tie_parameter_and_a_sampled_judge(tmp_path, capsys):
+    judge = "\n[judge]\nrationality = { log_mean = 0.5, log_sd = 0.3 }\ntie = 0.8\n"
+    (tmp_path / "p.toml").write_text(TINY_TOML + judge)
+    (tmp_path / "c.jsonl").write_text(EPISODES + '{"no_preference": ["a", "b"]}\n'
+                                      '{"preferred": "b", "other": "a"}\n')
+    code = main(["check", str(tmp_path / "p.toml"), "--comparisons",
+                 str(tmp_path / "c.jsonl")])
+    out = capsys.readouterr().out
+    assert code == 0
+    assert ("2 answers (1 'no preference') comparing 2 episodes (Davidson's tie model on "
+            "discounted returns; judge rationality sampled, log-normal prior (log_mean 0.5, "
+            "log_sd 0.3), tie parameter 0.8 (fixed))") in out
+    # negative control: a bad [judge] value is refused naming table and key
+    (tmp_path / "p.toml").write_text(TINY_TOML + "\n[judge]\ntie = -1\n")
+    code = main(["check", str(tmp_path / "p.toml")])
+    assert code == 2 and "[judge] tie" in capsys.readouterr().err
 
 
 def test_files_without_blanks_read_as_before(tmp_path, capsys):
@@ -47,6 +65,12 @@ def test_bad_comparison_files_name_line_and_value(tmp_path, capsys):
         '{"preferred": "a", "other": "b", "tie": true}\n': "line 3: a tie or 'no preference'",
         '{"preferred": null, "other": "b"}\n': "line 3: a tie or 'no preference'",
         '{"preferred": "a", "other": "a"}\n': "line 3: episode 'a' compared with itself",
+        '{"no_preference": ["a"]}\n': "line 3: no_preference ['a'] is not a list of two",
+        '{"no_preference": ["a", "b"], "other": "a"}\n': "line 3: keys ['no_preference', "
+                                                         "'other']",
+        # a tie with no tie parameter in the problem file: refused, naming the remedy
+        '{"no_preference": ["a", "b"]}\n': "line 3: a 'no preference' answer (1 in the "
+                                           "file); modelling it needs Davidson's tie",
         '{"episode": "x", "cells": [[0,0],[1,1]], "actions": ["down"]}\n':
             "line 3: state (1, 1) is a blocked cell",
     }

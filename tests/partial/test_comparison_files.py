@@ -24,22 +24,28 @@ EPISODE_LINES = [
 ids = st.sampled_from(["a", "b", "c", "d", "7", 7, "zz", None, True, 1.5])
 answers = st.builds(lambda p, o, extra: {"preferred": p, "other": o, **extra}, ids, ids,
                     st.sampled_from([{}, {}, {"tie": True}, {"why": "x"}]))
-lines = st.lists(st.one_of(st.sampled_from(EPISODE_LINES), answers,
+no_preference = st.one_of(st.builds(lambda p, o: {"no_preference": [p, o]}, ids, ids),
+                          st.sampled_from([{"no_preference": "a"}, {"no_preference": ["a"]},
+                                           {"no_preference": ["a", "b"], "other": "a"}]))
+lines = st.lists(st.one_of(st.sampled_from(EPISODE_LINES), answers, no_preference,
                            st.sampled_from(["", "{", "[]", "null", '{"episode": "a"}'])),
                  min_size=1, max_size=8)
 
 
 @pytest.fixture(scope="module")
-def problem(tmp_path_factory):
+def problems(tmp_path_factory):
+    """Without and with Davidson's tie parameter ([judge] tie)."""
     folder = tmp_path_factory.mktemp("p")
     (folder / "p.toml").write_text(TINY_TOML)
-    return read_problem(folder / "p.toml")
+    (folder / "t.toml").write_text(TINY_TOML + "\n[judge]\ntie = 0.5\n")
+    return read_problem(folder / "p.toml"), read_problem(folder / "t.toml")
 
 
 @settings(max_examples=200, deadline=None, derandomize=True,
           suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(content=lines)
-def test_any_comparison_file_reads_or_names_its_line(tmp_path, problem, content):
+@given(content=lines, with_tie=st.booleans())
+def test_any_comparison_file_reads_or_names_its_line(tmp_path, problems, content, with_tie):
+    problem = problems[with_tie]
     text = "\n".join(x if isinstance(x, str) else json.dumps(x) for x in content) + "\n"
     path = tmp_path / "c.jsonl"
     path.write_text(text)
@@ -51,7 +57,42 @@ def test_any_comparison_file_reads_or_names_its_line(tmp_path, problem, content)
         if " line " in msg:
             assert 1 <= int(msg.split(" line ")[1].split(":")[0]) <= len(content)
         return
-    given_pairs = [(str(x["preferred"]), str(x["other"])) for x in content
-                   if isinstance(x, dict) and "preferred" in x]
+    given_pairs = [(str(x["preferred"]), str(x["other"])) if "preferred" in x
+                   else tuple(str(v) for v in x["no_preference"]) for x in content
+                   if isinstance(x, dict) and ("preferred" in x or "no_preference" in x)]
     assert found.pairs == given_pairs
+    assert found.ties == [isinstance(x, dict) and "no_preference" in x for x in content
+                          if isinstance(x, dict) and ("preferred" in x or "no_preference" in x)]
+    assert with_tie or not any(found.ties)  # without [judge] tie, a tie is always refused
     assert all(a in found.episodes and b in found.episodes for a, b in found.pairs)
+
+
+asks = st.one_of(st.builds(lambda p, o: {"ask": [p, o]}, ids, ids),
+                 st.sampled_from([{"ask": "a"}, {"ask": ["a", "b"], "why": 1}]))
+candidate_lines = st.lists(st.one_of(st.sampled_from(EPISODE_LINES), asks,
+                                     st.sampled_from(["", "{", "null"])), min_size=1, max_size=8)
+
+
+@settings(max_examples=150, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(content=candidate_lines)
+def test_any_candidate_file_reads_or_names_its_line(tmp_path, problems, content):
+    """``suggest --comparisons FILE``: read, or one InputError naming the file (and a line
+    that exists); the pairs are the ask lines, or every pair of episodes without any."""
+    from bayesirl.io.comparisonfiles import read_candidates
+
+    text = "\n".join(x if isinstance(x, str) else json.dumps(x) for x in content) + "\n"
+    path = tmp_path / "q.jsonl"
+    path.write_text(text)
+    try:
+        episodes, pairs = read_candidates(path, problems[0])
+    except InputError as err:
+        msg = str(err)
+        assert msg.startswith(str(path))
+        if " line " in msg:
+            assert 1 <= int(msg.split(" line ")[1].split(":")[0]) <= len(content)
+        return
+    asked = [tuple(str(v) for v in x["ask"]) for x in content if isinstance(x, dict)
+             and "ask" in x]
+    n = len(episodes)
+    assert pairs == asked if asked else len(pairs) == n * (n - 1) // 2

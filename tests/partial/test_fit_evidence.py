@@ -55,6 +55,9 @@ def test_posterior_file_keeps_the_further_evidence(files):
     plain = bi.sample(lik, prior=problem.prior, chains=1, draws=5, warmup=5,
                       backend=bi.Processes(1), progress=False)
     assert contribution_lines(plain) == []  # one kind of evidence: nothing to split
+    from bayesirl.report import evidence_split
+
+    assert evidence_split.record(plain) is None  # nor a report section
 
 
 def test_fingerprint_covers_the_further_evidence(files):
@@ -83,6 +86,13 @@ def test_fit_with_comparisons_from_the_command_line(files, capsys):
     summary = json.loads((out / "summary.json").read_text())
     assert summary["comparisons"].endswith("c.jsonl")
     assert set(summary["inputs_sha256"]) == {"problem", "demonstrations", "comparisons"}
+    # the evidence split is in summary.json and report.html, not only printed
+    split = summary["report"]["evidence_split"]
+    assert [k["name"] for k in split["kinds"]] == [
+        "fully recorded episodes", "episodes with unrecorded parts", "comparisons"]
+    assert split["features"] == ["mud", "water"] and len(split["sd_all"]) == 2
+    page = (out / "report.html").read_text()
+    assert '<section id="evidence">' in page and "comparisons alone" in page
     assert len(bi.Posterior.load(out / "posterior.nc").model.extra) == 2
     code = main(["fit", "--resume", str(out), "--comparisons", str(files / "c.jsonl")])
     assert code == 2 and "takes no problem, demonstration or comparison files" in (
