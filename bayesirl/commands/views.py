@@ -125,6 +125,19 @@ def parse_candidates(text: str, n_states: int):
     return out
 
 
+def _whose(args, run, posterior, new):
+    """``suggest``'s ``demonstrator=``: None, one name, or a list (``new``: a new person)."""
+    who = list(getattr(args, "demonstrator", None) or [])
+    if getattr(args, "new_demonstrator", False):
+        who.append(new)
+    if getattr(posterior, "groups", None) is not None and not who:
+        raise InputError(f"{run.root}: this run has several demonstrators; name whose "
+                         "demonstrations to rank with --demonstrator NAME (one or more of "
+                         f"{list(posterior.groups['demonstrators'])}) and/or "
+                         "--new-demonstrator")
+    return None if not who else who[0] if len(who) == 1 else who
+
+
 def suggest_command(args) -> int:
     """Rank extra demonstrations for a run (the designer in ``bayesirl.design``)."""
     try:
@@ -158,15 +171,7 @@ def suggest_command(args) -> int:
         from bayesirl.commands.comparison_queries import rank_comparisons
 
         return rank_comparisons(args, run, posterior, summary, read_problem)
-    who = list(getattr(args, "demonstrator", None) or [])
-    if getattr(args, "new_demonstrator", False):
-        who.append(design.NEW)
-    if getattr(posterior, "groups", None) is not None and not who:
-        raise InputError(f"{run.root}: this run has several demonstrators; name whose "
-                         "demonstrations to rank with --demonstrator NAME (one or more of "
-                         f"{list(posterior.groups['demonstrators'])}) and/or "
-                         "--new-demonstrator")
-    who = None if not who else who[0] if len(who) == 1 else who
+    who = _whose(args, run, posterior, design.NEW)
     n_states = posterior.model.likelihood.mdp.n_states
     kwargs = {"candidates": parse_candidates(args.candidates, n_states),
               "budget": args.budget, "target": args.target, "seed": args.seed,
