@@ -30,6 +30,7 @@ def _difference(mdp) -> float:
     return abs(out[1] - out[0])
 
 
+@pytest.mark.slow  # ~10 s: a check of the benchmark's problem, not of the tool
 def test_state_only_steps_hide_their_action():
     mdp = shared_mdp(50)
     p = mdp.transitions.toarray().reshape(50, 4, 50)

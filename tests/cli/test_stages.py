@@ -70,7 +70,9 @@ def _signal_stage(folder: Path, stage: str, signum: int, out: str, argv=None):
 
 
 @pytest.mark.parametrize(("stage", "signum"), [
-    ("report", signal.SIGINT), ("save", signal.SIGTERM),
+    ("report", signal.SIGINT),
+    # ~14 s each: the default run keeps one stage and one signal
+    pytest.param("save", signal.SIGTERM, marks=pytest.mark.slow),
     pytest.param("report", signal.SIGTERM, marks=pytest.mark.slow),
     pytest.param("save", signal.SIGINT, marks=pytest.mark.slow)])
 def test_a_signal_after_sampling_keeps_every_draw(reference, stage, signum):

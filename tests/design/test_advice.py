@@ -133,6 +133,7 @@ def _settled_rate(gap: float, runs: int, seed: int) -> float:
     return hits / runs
 
 
+@pytest.mark.slow  # ~8 s of repeated scoring: statistical suite
 def test_two_equal_gains_rarely_read_settled():
     # Bootstrap around the observed means alone reads "best with probability >= 0.9" for one
     # of two equal candidates in 15-20% of runs (measured); the rerun probability (deviations

@@ -61,6 +61,7 @@ def _nuts(seed: int = 20, **kwargs) -> np.ndarray:
     return np.concatenate([post.weights[..., 1:], post.rationality[..., None]], axis=-1)
 
 
+@pytest.mark.slow  # ~7 s: statistical suite (NUTS against emcee stays in the default run)
 def test_posterior_is_not_gaussian():
     # Guard that the comparison is not a Gaussian one in disguise: the emcee draws of beta
     # are skewed; the sample skewness exceeds z * sqrt(6 / ESS), the sd of the sample
