@@ -105,7 +105,7 @@ def _interrupt_and_resume(tmp_path, signum, uninterrupted):
     np.testing.assert_array_equal(_weights(run), uninterrupted)
 
 
-@pytest.mark.slow  # ~19 s; Ctrl-C and exact resume stay in the default run in tests/resume/test_signals.py
+@pytest.mark.slow  # ~19 s; Ctrl-C and exact resume stay in tests/resume/test_signals.py
 def test_ctrl_c_keeps_draws_and_resume_matches_an_uninterrupted_run(tmp_path, uninterrupted):
     _interrupt_and_resume(tmp_path, signal.SIGINT, uninterrupted)
 
