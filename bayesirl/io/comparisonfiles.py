@@ -45,6 +45,18 @@ class ComparisonFile:
                                             ties=self.ties or None, tie=tie)
 
 
+def _episode(path, line: int, obj, problem, episodes: dict):
+    """An episode line of a comparisons or questions file: ``(episode, states, actions)``,
+    refused (naming file and line) when its discounted return cannot be formed."""
+    ep = episode_line(path, line, obj, problem, set(episodes), len(episodes))
+    states, actions = np.asarray(ep.states, np.int64), np.asarray(ep.actions, np.int64)
+    try:
+        discounted_features(problem.mdp, states, actions)
+    except InputError as err:
+        raise InputError(f"{path} line {line}: episode {ep.name!r}: {err}") from None
+    return ep, states, actions
+
+
 def read_comparisons(path, problem) -> ComparisonFile:
     """Read and check a comparison file against ``problem`` (errors name file and line)."""
     path = path_argument(path)
@@ -60,12 +72,7 @@ def read_comparisons(path, problem) -> ComparisonFile:
             lines.append(line)
             ties.append(tie)
             continue
-        ep = episode_line(path, line, obj, problem, set(episodes), len(episodes))
-        states, actions = np.asarray(ep.states, np.int64), np.asarray(ep.actions, np.int64)
-        try:
-            discounted_features(problem.mdp, states, actions)
-        except InputError as err:
-            raise InputError(f"{path} line {line}: episode {ep.name!r}: {err}") from None
+        ep, states, actions = _episode(path, line, obj, problem, episodes)
         episodes[ep.name], where[ep.name] = (states, actions), line
     if not pairs:
         raise InputError(f"{path}: no answers; expected lines like "
@@ -136,12 +143,7 @@ def read_candidates(path, problem) -> tuple[dict, list[tuple[str, str]]]:
                                  f"two different episodes; got {obj!r}")
             asks.append((line, str(v[0]), str(v[1])))
             continue
-        ep = episode_line(path, line, obj, problem, set(episodes), len(episodes))
-        states, actions = np.asarray(ep.states, np.int64), np.asarray(ep.actions, np.int64)
-        try:
-            discounted_features(problem.mdp, states, actions)
-        except InputError as err:
-            raise InputError(f"{path} line {line}: episode {ep.name!r}: {err}") from None
+        ep, states, actions = _episode(path, line, obj, problem, episodes)
         episodes[ep.name] = (states, actions)
     for line, a, b in asks:
         for name in (a, b):
